@@ -1,0 +1,133 @@
+package tracker
+
+// Partition is the result of a static run.
+type Partition struct {
+	// Membership is the stable community id of each node slot of the graph;
+	// NoCommunity for absent nodes.
+	Membership []uint64
+	// Communities holds the statistics of each community, sorted by ID.
+	Communities []CommunityStats
+	// Modularity is Q at the options' resolution.
+	Modularity float64
+	// Levels and Moves describe the run: levels of aggregation, node moves.
+	Levels, Moves int
+}
+
+// Detect runs static Louvain with the Leiden refinement on g from singletons
+// and returns a partition whose communities are all connected. Ids are
+// handed out from 1 in order of decreasing community size. It panics if o
+// does not validate; callers validate options first.
+func Detect(g *Graph, o *Options) *Partition {
+	return DetectFrom(g, o, nil)
+}
+
+// DetectFrom is Detect warm-started from prev (a stable id per node slot, as
+// in Partition.Membership; NoCommunity or a missing entry means a singleton):
+// the run starts from that partition and the communities that continue keep
+// their ids by the rule in doc.go. Fresh ids start above the largest id in
+// prev.
+func DetectFrom(g *Graph, o *Options, prev []uint64) *Partition {
+	opts := *o
+	opts.EnsureDefaults()
+	if err := opts.Validate(); err != nil {
+		panic(err)
+	}
+	n := g.Len()
+	var init []uint32
+	next := uint64(1)
+	if prev != nil {
+		init = make([]uint32, n)
+		dense := make(map[uint64]uint32)
+		for i := 0; i < n; i++ {
+			id := NoCommunity
+			if i < len(prev) {
+				id = prev[i]
+			}
+			if id != NoCommunity && id >= next {
+				next = id + 1
+			}
+			if id == NoCommunity || !g.alive[i] {
+				init[i] = uint32(i)
+				continue
+			}
+			d, ok := dense[id]
+			if !ok {
+				// Labels of warm-start groups are node ids of their first
+				// member, so they never collide with a singleton's label.
+				d = uint32(i)
+				dense[id] = d
+			}
+			init[i] = d
+		}
+	}
+	s := newSolver(opts.Resolution, opts.Seed)
+	l := g.view()
+	comm, c := s.run(l, init, opts.MaxLevels)
+	if s.split {
+		c = splitDisconnected(&l, comm, c)
+	}
+	var prevIDs []uint64
+	if prev != nil {
+		prevIDs = make([]uint64, n)
+		for i := range prevIDs {
+			prevIDs[i] = NoCommunity
+			if i < len(prev) && g.alive[i] {
+				prevIDs[i] = prev[i]
+			}
+		}
+	}
+	p := finish(g, comm, c, prevIDs, &next, opts.Resolution)
+	p.Levels, p.Moves = s.levels, s.moves
+	return p
+}
+
+// finish turns a dense partition into a Partition: stable ids, statistics
+// and exact modularity.
+func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma float64) *Partition {
+	ids := assignIDs(comm, c, nil, prev, g.k, next)
+	in, tot := communityTotals(g, comm, c)
+	size := make([]int, c)
+	for i := range comm {
+		if g.alive[i] {
+			size[comm[i]]++
+		}
+	}
+	p := &Partition{Membership: make([]uint64, len(comm))}
+	for i, ci := range comm {
+		if g.alive[i] {
+			p.Membership[i] = ids[ci]
+		} else {
+			p.Membership[i] = NoCommunity
+		}
+	}
+	for ci := 0; ci < c; ci++ {
+		if size[ci] == 0 {
+			continue
+		}
+		p.Communities = append(p.Communities, CommunityStats{ID: ids[ci], Size: size[ci], Internal: in[ci] / 2, Degree: tot[ci]})
+	}
+	sortStats(p.Communities)
+	p.Modularity = qFrom(in, tot, g.m2, gamma)
+	return p
+}
+
+// communityTotals returns in_c (internal weight from both ends, loops 2w)
+// and tot_c for a dense partition, summed in node order.
+func communityTotals(g *Graph, comm []uint32, c int) (in, tot []float64) {
+	in = make([]float64, c)
+	tot = make([]float64, c)
+	for i, ci := range comm {
+		if !g.alive[i] {
+			continue
+		}
+		tot[ci] += g.k[i]
+		in[ci] += 2 * g.self[i]
+		s, d := g.start[i], g.deg[i]
+		for p := s; p < s+d; p++ {
+			if comm[g.nbr[p]] == ci {
+				in[ci] += g.wt[p]
+			}
+		}
+	}
+	return in, tot
+}

@@ -1,0 +1,417 @@
+package tracker
+
+import (
+	"math/rand/v2"
+)
+
+// solver holds the scratch space of one optimisation run. The hot loops
+// below work on flat slices only: a dense weight accumulator indexed by
+// community plus the list of communities it touched, reset after each node.
+type solver struct {
+	gamma float64
+	rng   *rand.Rand
+
+	wsum    []float64 // accumulator indexed by community, all zero between nodes
+	touched []uint32  // communities with a non-zero wsum entry
+	ring    []uint32  // local-moving queue (ring buffer)
+	inq     []bool    // node is in the queue
+	moves   int       // node moves in the last run (all levels)
+	levels  int       // levels of the last run
+	split   bool      // the last run may have left a community disconnected
+}
+
+func newSolver(gamma float64, seed uint64) *solver {
+	return &solver{gamma: gamma, rng: rand.New(rand.NewPCG(seed, seed^0x9e3779b97f4a7c15))}
+}
+
+// grow sizes the scratch for n nodes and community slots.
+func (s *solver) grow(n int) {
+	if len(s.wsum) < n {
+		s.wsum = make([]float64, n)
+		s.ring = make([]uint32, n)
+		s.inq = make([]bool, n)
+	}
+}
+
+// perm fills dst with a seeded random permutation of 0..len(dst)-1.
+func (s *solver) perm(dst []uint32) {
+	for i := range dst {
+		dst[i] = uint32(i)
+	}
+	for i := len(dst) - 1; i > 0; i-- {
+		j := s.rng.IntN(i + 1)
+		dst[i], dst[j] = dst[j], dst[i]
+	}
+}
+
+// moveTol is the smallest gain, relative to the node's degree, worth a move.
+// Gains are computed in units of k_i,C - gamma k_i tot_C / 2m (DESIGN.md
+// section 5; the common factor 1/m is dropped), so the rounding error of a
+// gain is a few ulps of k_i.
+const moveTol = 1e-10
+
+// moveFast is local moving with a queue (Traag et al. 2019, the "fast local
+// move" of Leiden): nodes are taken from the queue, each moves to the
+// neighbouring community of largest gain (ties: the lower community index),
+// and when a node moves its neighbours outside the target community are
+// queued again. comm and tot are updated in place. The queue starts with
+// the nodes in start, in that order. It returns the number of moves.
+//
+// comm values must be below len(s.wsum); tot is indexed by community.
+func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32) int {
+	n := l.n()
+	if l.m2 <= 0 || n == 0 {
+		return 0
+	}
+	scale := s.gamma / l.m2
+	ring, inq, wsum := s.ring[:n], s.inq[:n], s.wsum
+	touched := s.touched[:0]
+	head, size := 0, 0
+	for _, i := range start {
+		if !inq[i] {
+			inq[i] = true
+			ring[(head+size)%n] = i
+			size++
+		}
+	}
+	moves := 0
+	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
+	for size > 0 {
+		i := ring[head]
+		head++
+		if head == n {
+			head = 0
+		}
+		size--
+		inq[i] = false
+		ki := k[i]
+		if ki == 0 {
+			continue
+		}
+		ci := comm[i]
+		st, d := startOf[i], degOf[i]
+		nb, ws := nbr[st:st+d], wt[st:st+d]
+		for p, j := range nb {
+			c := comm[j]
+			if wsum[c] == 0 {
+				touched = append(touched, c)
+			}
+			wsum[c] += ws[p]
+		}
+		tot[ci] -= ki
+		best := ci
+		stay := wsum[ci] - scale*ki*tot[ci]
+		bestGain := stay
+		for _, c := range touched {
+			g := wsum[c] - scale*ki*tot[c]
+			if g > bestGain || (g == bestGain && c < best) {
+				best, bestGain = c, g
+			}
+			wsum[c] = 0
+		}
+		wsum[ci] = 0
+		touched = touched[:0]
+		if best == ci || bestGain-stay <= moveTol*ki {
+			tot[ci] += ki
+			continue
+		}
+		tot[best] += ki
+		comm[i] = best
+		moves++
+		for _, j := range nb {
+			if !inq[j] && comm[j] != best {
+				inq[j] = true
+				t := head + size
+				if t >= n {
+					t -= n
+				}
+				ring[t] = j
+				size++
+			}
+		}
+	}
+	s.touched = touched
+	return moves
+}
+
+// refine is the refinement phase of Leiden (Traag, Waltman and van Eck 2019,
+// Algorithm A.2, MergeNodesSubset, with the greedy choice instead of the
+// randomised one): inside each community S of comm, start from singletons;
+// visit nodes in a seeded random order; a node v that is still a singleton
+// and is well connected to S, w(v, S-v) >= gamma k_v (tot_S - k_v) / 2m,
+// joins the well-connected sub-community T of S,
+// w(T, S-T) >= gamma tot_T (tot_S - tot_T) / 2m, of largest positive gain.
+// Every sub-community is connected, since v only joins a T it has an edge
+// to. ref receives the sub-community of each node (dense after renumber);
+// it returns their number.
+func (s *solver) refine(l *level, comm []uint32, tot []float64, ref []uint32) int {
+	n := l.n()
+	scale := s.gamma / l.m2
+	ext := make([]float64, n)    // w(T, S-T), indexed by the sub-community's first node
+	refTot := make([]float64, n) // tot_T
+	size := make([]uint32, n)
+	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
+	for i := 0; i < n; i++ {
+		ref[i] = uint32(i)
+		refTot[i] = k[i]
+		size[i] = 1
+		c := comm[i]
+		st, d := startOf[i], degOf[i]
+		var e float64
+		for p := st; p < st+d; p++ {
+			if comm[nbr[p]] == c {
+				e += wt[p]
+			}
+		}
+		ext[i] = e
+	}
+	order := make([]uint32, n)
+	s.perm(order)
+	wsum := s.wsum
+	touched := s.touched[:0]
+	for _, v := range order {
+		if size[ref[v]] != 1 {
+			continue
+		}
+		S := comm[v]
+		totS, kv := tot[S], k[v]
+		if ext[v] < scale*kv*(totS-kv) {
+			continue
+		}
+		st, d := startOf[v], degOf[v]
+		for p := st; p < st+d; p++ {
+			j := nbr[p]
+			if comm[j] != S {
+				continue
+			}
+			r := ref[j]
+			if wsum[r] == 0 {
+				touched = append(touched, r)
+			}
+			wsum[r] += wt[p]
+		}
+		own := ref[v]
+		best, bestGain := own, moveTol*kv
+		for _, r := range touched {
+			if ext[r] >= scale*refTot[r]*(totS-refTot[r]) {
+				g := wsum[r] - scale*kv*refTot[r]
+				if g > bestGain || (g == bestGain && r < best) {
+					best, bestGain = r, g
+				}
+			}
+		}
+		if best != own {
+			size[own]--
+			size[best]++
+			ref[v] = best
+			refTot[best] += kv
+			ext[best] += ext[v] - 2*wsum[best]
+		}
+		for _, r := range touched {
+			wsum[r] = 0
+		}
+		touched = touched[:0]
+	}
+	s.touched = touched
+	return renumber(ref, s.ring)
+}
+
+// renumber maps the values of x onto 0..c-1 in order of first appearance
+// and returns c. scratch must hold max(x)+1 entries.
+func renumber(x []uint32, scratch []uint32) int {
+	const unset = ^uint32(0)
+	for _, v := range x {
+		scratch[v] = unset
+	}
+	c := uint32(0)
+	for i, v := range x {
+		if scratch[v] == unset {
+			scratch[v] = c
+			c++
+		}
+		x[i] = scratch[v]
+	}
+	return int(c)
+}
+
+// aggregate builds the graph of the groups of ref (values 0..nr-1): one node
+// per group, edge weights summed, the weight inside a group kept as a
+// self-loop so that the degrees and 2m are unchanged (Blondel et al. 2008).
+func (s *solver) aggregate(l *level, ref []uint32, nr int) level {
+	n := l.n()
+	cnt := make([]uint32, nr+1)
+	for i := 0; i < n; i++ {
+		cnt[ref[i]+1]++
+	}
+	for r := 1; r <= nr; r++ {
+		cnt[r] += cnt[r-1]
+	}
+	members := make([]uint32, n)
+	pos := make([]uint32, nr)
+	copy(pos, cnt[:nr])
+	for i := 0; i < n; i++ {
+		r := ref[i]
+		members[pos[r]] = uint32(i)
+		pos[r]++
+	}
+	entries := 0
+	for i := 0; i < n; i++ {
+		entries += int(l.deg[i])
+	}
+	a := level{
+		start: make([]uint32, nr),
+		deg:   make([]uint32, nr),
+		nbr:   make([]uint32, 0, entries),
+		wt:    make([]float64, 0, entries),
+		self:  make([]float64, nr),
+		k:     make([]float64, nr),
+		m2:    l.m2,
+	}
+	wsum := s.wsum
+	touched := s.touched[:0]
+	for r := 0; r < nr; r++ {
+		var self, kr float64
+		for _, i := range members[cnt[r]:cnt[r+1]] {
+			self += l.self[i]
+			kr += l.k[i]
+			st, d := l.start[i], l.deg[i]
+			for p := st; p < st+d; p++ {
+				t := ref[l.nbr[p]]
+				if t == uint32(r) {
+					self += l.wt[p] / 2
+					continue
+				}
+				if wsum[t] == 0 {
+					touched = append(touched, t)
+				}
+				wsum[t] += l.wt[p]
+			}
+		}
+		a.start[r] = uint32(len(a.nbr))
+		a.deg[r] = uint32(len(touched))
+		for _, t := range touched {
+			a.nbr = append(a.nbr, t)
+			a.wt = append(a.wt, wsum[t])
+			wsum[t] = 0
+		}
+		touched = touched[:0]
+		a.self[r], a.k[r] = self, kr
+	}
+	s.touched = touched
+	return a
+}
+
+// run optimises the partition of l, starting from init (nil: singletons),
+// and returns the community of each node of l, dense in 0..c-1, and c.
+// Levels follow Leiden: local moving, refinement, aggregation of the refined
+// partition with the unrefined one as its start, until local moving leaves
+// every aggregate node in a community of its own. Only then is every
+// community guaranteed connected; when maxLevels stops the run earlier, or a
+// refinement merged nothing, s.split is set and the caller splits
+// disconnected communities.
+func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
+	n0 := base.n()
+	s.grow(n0)
+	s.moves, s.levels, s.split = 0, 0, false
+	nodeOf := make([]uint32, n0)
+	for i := range nodeOf {
+		nodeOf[i] = uint32(i)
+	}
+	comm := make([]uint32, n0)
+	if init != nil {
+		copy(comm, init)
+		renumber(comm, s.ring)
+	} else {
+		copy(comm, nodeOf)
+	}
+	l := base
+	var nc int
+	for lvl := 0; ; lvl++ {
+		n := l.n()
+		tot := make([]float64, n)
+		for i := 0; i < n; i++ {
+			tot[comm[i]] += l.k[i]
+		}
+		order := make([]uint32, n)
+		s.perm(order)
+		s.moves += s.moveFast(&l, comm, tot, order)
+		nc = renumber(comm, s.ring)
+		s.levels = lvl + 1
+		if nc == n {
+			break
+		}
+		if lvl+1 >= maxLevels {
+			s.split = true
+			break
+		}
+		for i := 0; i < nc; i++ {
+			tot[i] = 0
+		}
+		for i := 0; i < n; i++ {
+			tot[comm[i]] += l.k[i]
+		}
+		ref := make([]uint32, n)
+		nr := s.refine(&l, comm, tot, ref)
+		if nr == n {
+			// Nothing merged: aggregate the unrefined communities instead,
+			// as Louvain does, and split at the end if need be.
+			copy(ref, comm)
+			nr = nc
+			s.split = true
+		}
+		agg := s.aggregate(&l, ref, nr)
+		next := make([]uint32, nr)
+		for i := 0; i < n; i++ {
+			next[ref[i]] = comm[i]
+		}
+		for i := range nodeOf {
+			nodeOf[i] = ref[nodeOf[i]]
+		}
+		l, comm = agg, next
+	}
+	out := make([]uint32, n0)
+	for i := range out {
+		out[i] = comm[nodeOf[i]]
+	}
+	return out, nc
+}
+
+// splitDisconnected relabels comm (dense, c communities) so that every
+// community is connected in l: each connected part of a community beyond
+// the one holding its lowest node gets a new label c, c+1, ... It returns
+// the new count.
+func splitDisconnected(l *level, comm []uint32, c int) int {
+	n := l.n()
+	seen := make([]bool, n)
+	first := make([]bool, c) // community already has its first part
+	stack := make([]uint32, 0, 64)
+	next := uint32(c)
+	for s := 0; s < n; s++ {
+		if seen[s] {
+			continue
+		}
+		old := comm[s]
+		label := old
+		if first[old] {
+			label = next
+			next++
+		}
+		first[old] = true
+		seen[s] = true
+		stack = append(stack[:0], uint32(s))
+		for len(stack) > 0 {
+			i := stack[len(stack)-1]
+			stack = stack[:len(stack)-1]
+			comm[i] = label
+			st, d := l.start[i], l.deg[i]
+			for p := st; p < st+d; p++ {
+				j := l.nbr[p]
+				if !seen[j] && comm[j] == old {
+					seen[j] = true
+					stack = append(stack, j)
+				}
+			}
+		}
+	}
+	return int(next)
+}
