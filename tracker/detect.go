@@ -27,6 +27,12 @@ func Detect(g *Graph, o *Options) *Partition {
 // their ids by the rule in doc.go. Fresh ids start above the largest id in
 // prev.
 func DetectFrom(g *Graph, o *Options, prev []uint64) *Partition {
+	return detectFrom(g, o, prev, 0)
+}
+
+// detectFrom is DetectFrom with fresh ids starting at next, or above the
+// largest id in prev if that is larger.
+func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 	opts := *o
 	opts.EnsureDefaults()
 	if err := opts.Validate(); err != nil {
@@ -34,7 +40,7 @@ func DetectFrom(g *Graph, o *Options, prev []uint64) *Partition {
 	}
 	n := g.Len()
 	var init []uint32
-	next := uint64(1)
+	next = max(next, 1)
 	if prev != nil {
 		init = make([]uint32, n)
 		dense := make(map[uint64]uint32)

@@ -194,8 +194,8 @@ func (g *Graph) EdgeList(dst []Edge) []Edge {
 	return dst
 }
 
-// Grow makes room for node ids below n. New slots are present nodes with no
-// edges.
+// Grow makes room for node ids below n. New slots are absent until an edge
+// names them.
 func (g *Graph) Grow(n int) {
 	if n > MaxNodes {
 		panic(fmt.Sprintf("tracker: node count %d over %d", n, MaxNodes))
@@ -206,8 +206,7 @@ func (g *Graph) Grow(n int) {
 		g.capa = append(g.capa, 0)
 		g.self = append(g.self, 0)
 		g.k = append(g.k, 0)
-		g.alive = append(g.alive, true)
-		g.nodes++
+		g.alive = append(g.alive, false)
 	}
 }
 

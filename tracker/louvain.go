@@ -16,8 +16,14 @@ type solver struct {
 	ring    []uint32  // local-moving queue (ring buffer)
 	inq     []bool    // node is in the queue
 	moves   int       // node moves in the last run (all levels)
+	visits  int       // queue pops of moveFast, summed until reset
 	levels  int       // levels of the last run
 	split   bool      // the last run may have left a community disconnected
+
+	// onMove, if set, is called after moveFast moves node i from community
+	// from to community to; wFrom and wTo are k_i,from and k_i,to (self-loop
+	// excluded). The tracker keeps its per-community bookkeeping with it.
+	onMove func(i, from, to uint32, wFrom, wTo float64)
 }
 
 func newSolver(gamma float64, seed uint64) *solver {
@@ -84,6 +90,7 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		}
 		size--
 		inq[i] = false
+		s.visits++
 		ki := k[i]
 		if ki == 0 {
 			continue
@@ -100,12 +107,13 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		}
 		tot[ci] -= ki
 		best := ci
-		stay := wsum[ci] - scale*ki*tot[ci]
-		bestGain := stay
+		wFrom := wsum[ci]
+		stay := wFrom - scale*ki*tot[ci]
+		bestGain, bestW := stay, wFrom
 		for _, c := range touched {
 			g := wsum[c] - scale*ki*tot[c]
 			if g > bestGain || (g == bestGain && c < best) {
-				best, bestGain = c, g
+				best, bestGain, bestW = c, g, wsum[c]
 			}
 			wsum[c] = 0
 		}
@@ -118,6 +126,9 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		tot[best] += ki
 		comm[i] = best
 		moves++
+		if s.onMove != nil {
+			s.onMove(i, ci, best, wFrom, bestW)
+		}
 		for _, j := range nb {
 			if !inq[j] && comm[j] != best {
 				inq[j] = true

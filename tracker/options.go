@@ -21,10 +21,10 @@ type Options struct {
 	// current partition, every FullEvery batches (the drift guard). Zero
 	// means never on a count.
 	FullEvery int
-	// DriftBound makes Apply run the same full pass once the estimated
-	// modularity lost to the frontier rule since the last full pass exceeds
-	// it (see doc.go, "Drift guard"). Zero means 0.002; a negative value
-	// turns the estimate off.
+	// DriftBound makes Apply run the same full pass once the drift
+	// estimate, the edge weight changed since the last full pass as a
+	// fraction of the total weight m, exceeds it (see doc.go, "Drift
+	// guard"). Zero means never on the estimate.
 	DriftBound float64
 }
 
@@ -35,9 +35,6 @@ func (o *Options) EnsureDefaults() *Options {
 	}
 	if o.MaxLevels == 0 {
 		o.MaxLevels = 64
-	}
-	if o.DriftBound == 0 {
-		o.DriftBound = 0.002
 	}
 	return o
 }
@@ -54,8 +51,8 @@ func (o *Options) Validate() error {
 	if o.FullEvery < 0 {
 		errs = append(errs, fmt.Errorf("tracker: full-pass interval %d: must be >= 0", o.FullEvery))
 	}
-	if math.IsNaN(o.DriftBound) {
-		errs = append(errs, errors.New("tracker: drift bound is NaN"))
+	if math.IsNaN(o.DriftBound) || o.DriftBound < 0 {
+		errs = append(errs, fmt.Errorf("tracker: drift bound %v: must be >= 0", o.DriftBound))
 	}
 	return errors.Join(errs...)
 }
