@@ -82,7 +82,7 @@ type Tracker struct {
 	// per-batch scratch
 	mark     []bool
 	frontier []uint32
-	seeds    []seed // connectivity checks pending: (slot, node) pairs
+	seeds    []seed   // connectivity checks pending: (slot, node) pairs
 	hot      []uint32 // slots touched by the batch
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
