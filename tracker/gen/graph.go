@@ -67,10 +67,11 @@ func (g *Graph) Mixing() float64 {
 	return sum / float64(n)
 }
 
-// edgesFromKeys sorts packed keys (see edgeKey) and expands them into
-// weight-1 edges. keys must hold no duplicates; it is reordered.
-func edgesFromKeys(keys []uint64) []tracker.Edge {
-	sortKeys(keys)
+// edgesFromKeys sorts packed keys (see edgeKey) of a graph on n nodes and
+// expands them into weight-1 edges. keys must hold no duplicates; it is
+// reordered.
+func edgesFromKeys(keys []uint64, n int) []tracker.Edge {
+	sortKeys(keys, n)
 	edges := make([]tracker.Edge, len(keys))
 	for i, k := range keys {
 		edges[i] = tracker.Edge{U: uint32(k >> 32), V: uint32(k), W: 1}

@@ -121,7 +121,7 @@ func Planted(o PlantedOptions) (*Graph, error) {
 		}
 		start = end
 	}
-	return &Graph{N: n, Edges: edgesFromKeys(keys), Membership: membership}, nil
+	return &Graph{N: n, Edges: edgesFromKeys(keys, n), Membership: membership}, nil
 }
 
 // skipper draws a Bernoulli(p) subset of a run of candidate pairs by
