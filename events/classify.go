@@ -63,15 +63,14 @@ type matcher struct {
 	sizeA, sizeB   []int32  // community sizes
 	leastA, leastB []uint32 // least member of each community (tie-breaker)
 
-	byType [len(Types)][]plan // plans of each type, in output order
-	plans  []plan             // all plans in output order
-	slab   []int32            // community indices and pair indices of the plans
+	plans []plan  // in output order within each type
+	slab  []int32 // community indices and pair indices of the plans
 }
 
 // plan is one event before its record is built: slab[before], slab[after]
 // hold community indices, slab[pairs] pair indices.
 type plan struct {
-	typ                  Type
+	kind                 int32 // index in Types
 	before, after, pairs span
 }
 
@@ -147,6 +146,8 @@ func (m *matcher) countPairs() {
 	counter := make([]int32, nB)
 	var touched, js []int32
 	m.startA = make([]int32, nA+1)
+	// A guess (two partners per community) to avoid most regrowth.
+	m.pi, m.pj, m.ps = make([]int32, 0, 2*nA), make([]int32, 0, 2*nA), make([]int32, 0, 2*nA)
 	for i := range m.a.Communities {
 		m.startA[i] = int32(len(m.pi))
 		if !m.eligA[i] {
@@ -219,6 +220,10 @@ func (m *matcher) plan() {
 	m.sizeA, m.leastA = shape(m.a)
 	m.sizeB, m.leastB = shape(m.b)
 	inA, inB := make([]bool, nA), make([]bool, nB)
+	// Every event holds a community no other event of its type holds, so
+	// there are at most nA + nB; the slab holds a few entries per event.
+	m.plans = make([]plan, 0, nA+nB)
+	m.slab = make([]int32, 0, 4*(nA+nB))
 
 	// Merge: N receives more than half of each of two or more P.
 	nMaj := make([]int32, nB)
@@ -323,14 +328,25 @@ func (m *matcher) plan() {
 			m.addPlan(Death, m.push(int32(i)), span{}, m.topPairs(ks, m.pj, m.leastB))
 		}
 	}
-	for t := range m.byType {
-		m.plans = append(m.plans, m.byType[t]...)
+	// Stable counting sort by type: within a type the plans are already in
+	// output order.
+	var start [len(Types) + 1]int
+	for _, p := range m.plans {
+		start[p.kind+1]++
 	}
+	for t := 1; t <= len(Types); t++ {
+		start[t] += start[t-1]
+	}
+	sorted := make([]plan, len(m.plans))
+	for _, p := range m.plans {
+		sorted[start[p.kind]] = p
+		start[p.kind]++
+	}
+	m.plans = sorted
 }
 
 func (m *matcher) addPlan(typ Type, before, after, pairs span) {
-	o := typ.order()
-	m.byType[o] = append(m.byType[o], plan{typ: typ, before: before, after: after, pairs: pairs})
+	m.plans = append(m.plans, plan{kind: int32(typ.order()), before: before, after: after, pairs: pairs})
 }
 
 func (m *matcher) push(x int32) span {
@@ -392,7 +408,7 @@ func (m *matcher) build() []Event {
 	names := make([]string, 0, 4*len(m.plans)) // backing array of Joined and Left; non-nil so empty lists encode as []
 	for e, p := range m.plans {
 		ev := &out[e]
-		ev.Schema, ev.Type, ev.Graph, ev.Note = Schema, p.typ, m.a.Graph, Note
+		ev.Schema, ev.Type, ev.Graph, ev.Note = Schema, Types[p.kind], m.a.Graph, Note
 		ev.FromSnapshot, ev.ToSnapshot, ev.FromTime, ev.ToTime = m.a.ID, m.b.ID, fromTime, toTime
 
 		lo := len(sides)
@@ -420,8 +436,7 @@ func (m *matcher) build() []Event {
 		var bm, am []uint32
 		bm, ubuf = union(m.a, m.slab[p.before.lo:p.before.hi], ubuf)
 		am, vbuf = union(m.b, m.slab[p.after.lo:p.after.hi], vbuf)
-		left, ev.LeftCount = diff(left[:0], bm, am, limit)
-		joined, ev.JoinedCount = diff(joined[:0], am, bm, limit)
+		left, joined, ev.LeftCount, ev.JoinedCount = diff(left[:0], joined[:0], bm, am, limit)
 		lo = len(names)
 		for _, v := range left {
 			names = append(names, m.name(v))
@@ -453,23 +468,44 @@ func union(s *snapshot.Snapshot, idx []int32, buf []uint32) ([]uint32, []uint32)
 	return buf, buf
 }
 
-// diff appends to dst the first limit elements of x \ y (both strictly
-// increasing) and returns dst and the size of x \ y.
-func diff(dst, x, y []uint32, limit int) ([]uint32, int) {
-	n, k := 0, 0
-	for _, v := range x {
-		for k < len(y) && y[k] < v {
-			k++
+// diff merges x and y (both strictly increasing) in one pass and appends
+// the first limit elements of x \ y to dx and of y \ x to dy, returning both
+// and the full sizes of the two differences.
+func diff(dx, dy, x, y []uint32, limit int) ([]uint32, []uint32, int, int) {
+	nx, ny := 0, 0
+	a, b := 0, 0
+	for a < len(x) && b < len(y) {
+		switch u, v := x[a], y[b]; {
+		case u == v:
+			a++
+			b++
+		case u < v:
+			if nx < limit {
+				dx = append(dx, u)
+			}
+			nx++
+			a++
+		default:
+			if ny < limit {
+				dy = append(dy, v)
+			}
+			ny++
+			b++
 		}
-		if k < len(y) && y[k] == v {
-			continue
-		}
-		if n < limit {
-			dst = append(dst, v)
-		}
-		n++
 	}
-	return dst, n
+	for ; a < len(x); a++ {
+		if nx < limit {
+			dx = append(dx, x[a])
+		}
+		nx++
+	}
+	for ; b < len(y); b++ {
+		if ny < limit {
+			dy = append(dy, y[b])
+		}
+		ny++
+	}
+	return dx, dy, nx, ny
 }
 
 func (m *matcher) side(c *snapshot.Community) Side {

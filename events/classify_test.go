@@ -92,6 +92,22 @@ func TestScenarios(t *testing.T) {
 			"split [5]->[5 6] ov 5>5:5:0.500 5>6:5:0.500 +[]/0 -[]/0",
 		},
 	}, {
+		// Many-to-many in one step (Greene et al. 2010 allow merge and split
+		// together). A: 1 = {0..9}, 2 = {10..18}. B: 1 = {0..5, 10..14},
+		// 3 = {6..9}, 4 = {15..18}. Old 1 gives 6 > 10/2 of itself and old 2
+		// gives 5 > 9/2 of itself to new 1: merge (Jaccard 6/15 = 0.4 and
+		// 5/15). Old 1 also gives new 1 6 > 11/2 and new 3 4 > 4/2 of their
+		// members: split (Jaccard 0.4 and 4/10). New 4's only overlap is with
+		// old 2, which is in the merge: birth (Jaccard 4/9).
+		name: "merge and split sharing communities",
+		a:    snap(t, 1, nil, map[uint64][]int{1: span_(0, 9), 2: span_(10, 18)}),
+		b:    snap(t, 2, nil, map[uint64][]int{1: {0, 1, 2, 3, 4, 5, 10, 11, 12, 13, 14}, 3: span_(6, 9), 4: span_(15, 18)}),
+		want: []string{
+			"merge [1 2]->[1] ov 1>1:6:0.400 2>1:5:0.333 +[]/0 -[6 7 8 9 15 16 17 18]/8",
+			"split [1]->[1 3] ov 1>1:6:0.400 1>3:4:0.400 +[10 11 12 13 14]/5 -[]/0",
+			"birth []->[4] ov 2>4:4:0.444 +[15 16 17 18]/4 -[]/0",
+		},
+	}, {
 		// Community 1 = {0..9} loses half its members, who form their own
 		// K5 7 = {5..9}, and gains 5 new nodes {100..104}. 1 gives 5 to each
 		// of 1 and 7: a majority of 7 (5 > 2.5) but not of the new 1 (5 is
