@@ -15,6 +15,7 @@ func (t *Tracker) reoptimise() {
 		j := t.s.rng.IntN(i + 1)
 		order[i], order[j] = order[j], order[i]
 	}
+	t.groupPass()
 	l := g.view()
 	t.s.onMove = t.moved
 	t.s.visits = 0

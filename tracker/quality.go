@@ -10,11 +10,14 @@ import (
 // contingency returns the sizes of the non-empty cells of the contingency
 // table of a and b and the marginals, from a sort of the label pairs
 // (sparse: O(n log n), never a dense table).
-func contingency[L cmp.Ordered](a, b []L) (cells, ra, rb []int) {
+func contingency[A, B cmp.Ordered](a []A, b []B) (cells, ra, rb []int) {
 	if len(a) != len(b) {
 		panic(fmt.Sprintf("tracker: partitions of %d and %d nodes", len(a), len(b)))
 	}
-	type pair struct{ x, y L }
+	type pair struct {
+		x A
+		y B
+	}
 	ps := make([]pair, len(a))
 	for i := range a {
 		ps[i] = pair{a[i], b[i]}
@@ -67,7 +70,7 @@ func entropy(sizes []int, n float64) float64 {
 // of two partitions given as a label per node (Danon, Diaz-Guilera, Duch and
 // Arenas 2005). It is 1 for identical partitions up to relabelling, and 1
 // when both are a single group. Every node counts, whatever its label.
-func NMI[L cmp.Ordered](a, b []L) float64 {
+func NMI[A, B cmp.Ordered](a []A, b []B) float64 {
 	n := float64(len(a))
 	if n == 0 {
 		return 1
@@ -85,7 +88,7 @@ func NMI[L cmp.Ordered](a, b []L) float64 {
 
 // ARI returns the adjusted Rand index of two partitions (Hubert and Arabie
 // 1985): 1 for identical partitions, about 0 for independent ones.
-func ARI[L cmp.Ordered](a, b []L) float64 {
+func ARI[A, B cmp.Ordered](a []A, b []B) float64 {
 	n := len(a)
 	if n < 2 {
 		return 1

@@ -86,6 +86,7 @@ type Tracker struct {
 	hot      []uint32 // slots touched by the batch
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
+	local    []uint32 // node -> index in the frontier subgraph
 	stampGen uint32
 	res      Result
 }

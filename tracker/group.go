@@ -1,0 +1,162 @@
+package tracker
+
+import "slices"
+
+// groupPass looks for dense groups that the batch formed across
+// communities, which node-by-node local moving cannot find: each member of
+// such a group is better off where it is as long as the others are (the
+// typical case of a ring of existing accounts that starts to transact). It
+// runs the static optimiser on the subgraph induced by the frontier (with
+// the whole graph's degrees and 2m in the null model), and
+// moves each candidate group of three or more nodes, spread over more than
+// one community, into a community of its own when the exact modularity
+// gain of that move is positive. Candidates only come from the subgraph;
+// the decision is taken on the whole graph's modularity.
+func (t *Tracker) groupPass() {
+	f := t.frontier
+	if len(f) < 3 || t.g.m2 <= 0 {
+		return
+	}
+	g := t.g
+	if len(t.local) < len(t.comm) {
+		t.local = append(t.local, make([]uint32, len(t.comm)-len(t.local))...)
+	}
+	for li, u := range f {
+		t.local[u] = uint32(li)
+	}
+	var edges []Edge
+	for _, u := range f {
+		if s := g.self[u]; s > 0 {
+			edges = append(edges, Edge{U: t.local[u], V: t.local[u], W: s})
+		}
+		st, d := g.start[u], g.deg[u]
+		for p := st; p < st+d; p++ {
+			if v := g.nbr[p]; v > u && t.mark[v] {
+				edges = append(edges, Edge{U: t.local[u], V: t.local[v], W: g.wt[p]})
+			}
+		}
+	}
+	if len(edges) < 3 {
+		return
+	}
+	sub := NewGraph(len(f), edges)
+	o := t.o
+	o.Seed = t.o.Seed ^ uint64(t.batches)
+	s := newSolver(o.Resolution, o.Seed)
+	// Optimise the subgraph against the whole graph's null model: global
+	// degrees and 2m, so that candidates are not cut up by the small m of
+	// the subgraph (the resolution limit, Fortunato and Barthelemy 2007).
+	l := sub.view()
+	l.k = make([]float64, len(f))
+	for li, u := range f {
+		l.k[li] = g.k[u]
+	}
+	l.m2 = g.m2
+	comm, c := s.run(l, nil, 8)
+	groups := make([][]uint32, c)
+	for li, ci := range comm {
+		groups[ci] = append(groups[ci], f[li])
+	}
+	for _, grp := range groups {
+		if len(grp) < 3 {
+			continue
+		}
+		slices.Sort(grp)
+		t.tryGroup(grp)
+	}
+}
+
+// tryGroup moves the nodes of grp into a new community if that raises Q:
+//
+//	dQ * 2m = in_S - gamma tot_S^2 / 2m
+//	        + sum over communities C that lose members S_C:
+//	            -b_C - gamma ((tot_C - a_C)^2 - tot_C^2) / 2m
+//
+// with a_C = tot(S_C) and b_C the part of in_C that leaves with S_C (its
+// internal weight and twice its edges to C - S_C); DESIGN.md section 5.
+func (t *Tracker) tryGroup(grp []uint32) {
+	g := t.g
+	gen := t.nextStamp(1)
+	for _, u := range grp {
+		t.stamp[u] = gen
+	}
+	type loss struct {
+		c    uint32
+		a, b float64
+	}
+	var losses []loss
+	at := func(c uint32) *loss {
+		for i := range losses {
+			if losses[i].c == c {
+				return &losses[i]
+			}
+		}
+		losses = append(losses, loss{c: c})
+		return &losses[len(losses)-1]
+	}
+	var inS, totS float64
+	for _, u := range grp {
+		cu := t.comm[u]
+		lc := at(cu)
+		lc.a += g.k[u]
+		lc.b += 2 * g.self[u]
+		totS += g.k[u]
+		inS += 2 * g.self[u]
+		st, d := g.start[u], g.deg[u]
+		for p := st; p < st+d; p++ {
+			v, w := g.nbr[p], g.wt[p]
+			inGroup := t.stamp[v] == gen
+			if inGroup {
+				inS += w
+			}
+			if t.comm[v] == cu {
+				if inGroup {
+					lc.b += w
+				} else {
+					lc.b += 2 * w
+				}
+			}
+		}
+	}
+	if len(losses) < 2 {
+		return // already together
+	}
+	m2, gamma := g.m2, t.o.Resolution
+	gain := inS - gamma*totS*totS/m2
+	for _, lc := range losses {
+		tc := t.tot[lc.c]
+		gain += -lc.b - gamma*((tc-lc.a)*(tc-lc.a)-tc*tc)/m2
+	}
+	if gain <= moveTol*totS {
+		return
+	}
+	ns := t.newSlot()
+	t.heat(ns)
+	for _, u := range grp {
+		t.moveNode(u, ns)
+	}
+	t.res.Moves += len(grp)
+}
+
+// moveNode moves node u to slot to, keeping every total and recording the
+// connectivity check for the slot it leaves. O(degree).
+func (t *Tracker) moveNode(u, to uint32) {
+	g := t.g
+	from := t.comm[u]
+	if from == to {
+		return
+	}
+	var wFrom, wTo float64
+	st, d := g.start[u], g.deg[u]
+	for p := st; p < st+d; p++ {
+		switch t.comm[g.nbr[p]] {
+		case from:
+			wFrom += g.wt[p]
+		case to:
+			wTo += g.wt[p]
+		}
+	}
+	t.tot[from] -= g.k[u]
+	t.tot[to] += g.k[u]
+	t.moved(u, from, to, wFrom, wTo)
+}
