@@ -15,7 +15,8 @@ import (
 // be nil (defaults); it is not modified. Both snapshots must be of the same
 // graph and consistent (sorted ids, Size equal to the number of members,
 // strictly increasing members, no node in two communities). The cost is
-// linear in the number of members of both snapshots plus the events' size.
+// linear in the number of members of both snapshots, plus a sort of the
+// members of each merge and split (to list who joined and left).
 func Classify(a, b *snapshot.Snapshot, o *Options) ([]Event, error) {
 	var opts Options
 	if o != nil {
