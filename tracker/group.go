@@ -1,64 +1,85 @@
 package tracker
 
-import "slices"
+import (
+	"cmp"
+	"slices"
+)
 
 // groupPass looks for dense groups that the batch formed across
 // communities, which node-by-node local moving cannot find: each member of
 // such a group is better off where it is as long as the others are (the
 // typical case of a ring of existing accounts that starts to transact). It
-// runs the static optimiser on the subgraph induced by the frontier (with
-// the whole graph's degrees and 2m in the null model), and
-// moves each candidate group of three or more nodes, spread over more than
-// one community, into a community of its own when the exact modularity
-// gain of that move is positive. Candidates only come from the subgraph;
-// the decision is taken on the whole graph's modularity.
+// runs the static optimiser on the graph of the edges the batch added or
+// made heavier between communities (with their whole weight, and the whole
+// graph's degrees and 2m in the null model), and moves each candidate
+// group of three or more nodes, spread over more than one community, into
+// a community of its own when the exact modularity gain of that move on
+// the whole graph is positive. Its cost is proportional to the batch.
 func (t *Tracker) groupPass() {
-	f := t.frontier
-	if len(f) < 3 || t.g.m2 <= 0 {
+	if len(t.joins) < 3 || t.g.m2 <= 0 {
 		return
 	}
 	g := t.g
 	if len(t.local) < len(t.comm) {
 		t.local = append(t.local, make([]uint32, len(t.comm)-len(t.local))...)
 	}
-	for li, u := range f {
-		t.local[u] = uint32(li)
-	}
-	var edges []Edge
-	for _, u := range f {
-		if s := g.self[u]; s > 0 {
-			edges = append(edges, Edge{U: t.local[u], V: t.local[u], W: s})
+	gen := t.nextStamp(1)
+	var nodes []uint32
+	id := func(u uint32) uint32 {
+		if t.stamp[u] != gen {
+			t.stamp[u] = gen
+			t.local[u] = uint32(len(nodes))
+			nodes = append(nodes, u)
 		}
-		st, d := g.start[u], g.deg[u]
-		for p := st; p < st+d; p++ {
-			if v := g.nbr[p]; v > u && t.mark[v] {
-				edges = append(edges, Edge{U: t.local[u], V: t.local[v], W: g.wt[p]})
-			}
+		return t.local[u]
+	}
+	edges := make([]Edge, 0, len(t.joins))
+	for _, p := range t.joins {
+		u, v := p[0], p[1]
+		if w := g.Weight(u, v); w > 0 {
+			edges = append(edges, Edge{U: id(u), V: id(v), W: w})
 		}
 	}
-	if len(edges) < 3 {
+	if len(nodes) < 3 {
 		return
 	}
-	sub := NewGraph(len(f), edges)
-	o := t.o
-	o.Seed = t.o.Seed ^ uint64(t.batches)
-	s := newSolver(o.Resolution, o.Seed)
-	// Optimise the subgraph against the whole graph's null model: global
-	// degrees and 2m, so that candidates are not cut up by the small m of
-	// the subgraph (the resolution limit, Fortunato and Barthelemy 2007).
+	// A pair joined twice in the batch appears twice: keep one.
+	slices.SortFunc(edges, func(a, b Edge) int {
+		a.U, a.V = min(a.U, a.V), max(a.U, a.V)
+		b.U, b.V = min(b.U, b.V), max(b.U, b.V)
+		if a.U != b.U {
+			return cmp.Compare(a.U, b.U)
+		}
+		return cmp.Compare(a.V, b.V)
+	})
+	edges = slices.CompactFunc(edges, func(a, b Edge) bool {
+		return min(a.U, a.V) == min(b.U, b.V) && max(a.U, a.V) == max(b.U, b.V)
+	})
+	sub := NewGraph(len(nodes), edges)
+	s := newSolver(t.o.Resolution, t.o.Seed^uint64(t.batches))
 	l := sub.view()
-	l.k = make([]float64, len(f))
-	for li, u := range f {
+	l.k = make([]float64, len(nodes))
+	for li, u := range nodes {
 		l.k[li] = g.k[u]
 	}
 	l.m2 = g.m2
 	comm, c := s.run(l, nil, 8)
 	groups := make([][]uint32, c)
 	for li, ci := range comm {
-		groups[ci] = append(groups[ci], f[li])
+		groups[ci] = append(groups[ci], nodes[li])
 	}
 	for _, grp := range groups {
 		if len(grp) < 3 {
+			continue
+		}
+		spread := false
+		for _, u := range grp[1:] {
+			if t.comm[u] != t.comm[grp[0]] {
+				spread = true
+				break
+			}
+		}
+		if !spread {
 			continue
 		}
 		slices.Sort(grp)

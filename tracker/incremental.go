@@ -59,86 +59,71 @@ func (t *Tracker) moved(i, from, to uint32, wFrom, wTo float64) {
 	}
 }
 
-// mergeCap bounds the adjacency a community may have for the merge pass to
-// consider moving it whole; larger communities are left to local moving
-// and the full pass.
-const mergeCap = 1 << 16
+// mergeCap bounds the size (in nodes) of the smaller side of a pair the
+// merge pass evaluates. The pass exists for small groups that join or
+// meet (two rings that start to transact, a new group next to an old
+// one); merges of two large communities are left to local moving and to
+// the full pass. Scanning the smaller side of every pair an edge joins
+// was a third of the batch time at 10^6 edges with a cap of 4096.
+const mergeCap = 64
 
-// mergePass is the community-level step of Louvain restricted to the
-// communities the batch touched: each such community A, taken whole as one
-// node, joins the neighbouring community C of largest gain
-// w(A,C) - gamma tot_A tot_C / 2m when that is positive. The merged
-// community keeps the id of the side with the larger tot (ties: the older
-// id). The target is reconsidered in turn. Both sides are connected and
-// joined by an edge, so the union is connected.
+// mergePass is the community-level step of Louvain restricted to what the
+// batch touched: for every pair of communities that an added or heavier
+// edge joins (after local moving), the smaller one, taken whole as one
+// node, joins the other when w(A,B) - gamma tot_A tot_B / 2m is positive.
+// Its cost is the volume of the smaller sides, not of the graph. The
+// merged community keeps the id of the side with the larger tot (ties: the
+// older id). Both sides are connected and joined by an edge, so the union
+// is connected.
 func (t *Tracker) mergePass() {
 	g := t.g
-	if g.m2 <= 0 {
+	pairs := t.joins
+	t.joins = t.joins[:0]
+	if g.m2 <= 0 || len(pairs) == 0 {
 		return
 	}
 	scale := t.o.Resolution / g.m2
-	wsum := t.s.wsum
-	touched := t.s.touched[:0]
-	queue := append([]uint32(nil), t.hot...)
-	for qi := 0; qi < len(queue); qi++ {
-		a := queue[qi]
-		if t.size[a] == 0 {
+	for _, p := range pairs {
+		a, b := t.comm[p[0]], t.comm[p[1]]
+		if a == noSlot || b == noSlot || a == b {
 			continue
 		}
-		entries := 0
-		for i := t.head[a]; i != noSlot && entries <= mergeCap; i = t.next[i] {
+		if t.size[a] > t.size[b] || (t.size[a] == t.size[b] && a > b) {
+			a, b = b, a
+		}
+		if t.size[a] > mergeCap {
+			continue
+		}
+		var w float64
+		for i := t.head[a]; i != noSlot; i = t.next[i] {
 			st, d := g.start[i], g.deg[i]
-			entries += int(d)
-			for p := st; p < st+d; p++ {
-				c := t.comm[g.nbr[p]]
-				if c == a {
-					continue
+			for q := st; q < st+d; q++ {
+				if t.comm[g.nbr[q]] == b {
+					w += g.wt[q]
 				}
-				if wsum[c] == 0 {
-					touched = append(touched, c)
-				}
-				wsum[c] += g.wt[p]
 			}
 		}
 		totA := t.tot[a]
-		best, bestGain, bestW := noSlot, moveTol*totA, 0.0
-		if entries <= mergeCap {
-			for _, c := range touched {
-				gain := wsum[c] - scale*totA*t.tot[c]
-				if gain > bestGain || (gain == bestGain && best != noSlot && t.id[c] < t.id[best]) {
-					best, bestGain, bestW = c, gain, wsum[c]
-				}
-			}
-		}
-		for _, c := range touched {
-			wsum[c] = 0
-		}
-		touched = touched[:0]
-		if best == noSlot {
+		if w-scale*totA*t.tot[b] <= moveTol*totA {
 			continue
 		}
-		keep := t.id[best]
-		if totA > t.tot[best] || (totA == t.tot[best] && t.id[a] < keep) {
+		keep := t.id[b]
+		if totA > t.tot[b] || (totA == t.tot[b] && t.id[a] < keep) {
 			keep = t.id[a]
 		}
 		for i := t.head[a]; i != noSlot; {
 			nx := t.next[i]
-			t.link(i, best)
+			t.link(i, b)
 			i = nx
 		}
 		t.head[a], t.size[a] = noSlot, 0
-		t.tot[best] += totA
-		t.in[best] += t.in[a] + 2*bestW
-		t.id[best] = keep
+		t.tot[b] += totA
+		t.in[b] += t.in[a] + 2*w
+		t.id[b] = keep
 		t.release(a)
+		t.heat(b)
 		t.res.Merges++
-		if !t.hotMark[best] {
-			t.hotMark[best] = true
-			t.hot = append(t.hot, best)
-		}
-		queue = append(queue, best)
 	}
-	t.s.touched = touched
 }
 
 // Optimize runs a full static pass over the whole graph, warm-started from

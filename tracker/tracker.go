@@ -82,8 +82,9 @@ type Tracker struct {
 	// per-batch scratch
 	mark     []bool
 	frontier []uint32
-	seeds    []seed   // connectivity checks pending: (slot, node) pairs
-	hot      []uint32 // slots touched by the batch
+	seeds    []seed      // connectivity checks pending: (slot, node) pairs
+	joins    [][2]uint32 // endpoints of edges added or made heavier between communities
+	hot      []uint32    // slots touched by the batch
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
 	local    []uint32 // node -> index in the frontier subgraph
@@ -459,6 +460,7 @@ func (t *Tracker) change(c Change) {
 		t.markNode(v)
 		t.heat(cu)
 		t.heat(cv)
+		t.joins = append(t.joins, [2]uint32{u, v})
 	}
 }
 
