@@ -1,0 +1,101 @@
+// Package ingest turns edge events from files, standard input and NATS
+// messages into validated [Event] values, interns node ids ([Dict]), and
+// folds whole files into a static graph for the one-shot commands ([Load]).
+// It does no community detection.
+//
+// # Event model
+//
+// An [Event] has an [Op], two external node ids (Src, Dst), an optional
+// weight W and an optional time TS in Unix milliseconds:
+//
+//   - add (the default) adds W, or 1 when W is not given, to the weight of
+//     the undirected edge Src-Dst; repeated adds accumulate, as parallel
+//     edges do in a multigraph;
+//   - remove deletes the edge, or with W subtracts W from its weight;
+//   - set sets the weight to W, which it requires (0 deletes the edge);
+//   - node-remove deletes the node Src and all its edges; it has no Dst and
+//     no W.
+//
+// Ids are opaque strings of 1..[MaxIDBytes] bytes of valid UTF-8 with no
+// control characters (U+0000..U+001F, U+007F: they would break every
+// line-oriented output and only ever come from binary garbage). A given
+// weight is finite and > 0 (>= 0 for set). A missing time is reported as
+// HasTS false: the caller decides (the daemon uses the arrival time). The
+// graph is undirected; the order of Src and Dst is kept in the event but
+// not used.
+//
+// # Formats
+//
+// JSON lines ([JSONLines], [DecodeJSON]): one flat object per line with the
+// fields op, src, dst, w and ts, in any order:
+//
+//	{"op":"add","src":"acct-1093","dst":"acct-2210","w":125.0,"ts":"2026-11-30T08:15:02Z"}
+//	{"op":"remove","src":"acct-1093","dst":"acct-2210"}
+//	{"op":"set","src":"svc-cart","dst":"svc-price","w":42}
+//	{"op":"node-remove","src":"acct-1093"}
+//
+// The decoder is strict, so that a typo never silently turns into a
+// default: an unknown field ("weight" for "w"), a duplicate field, a value
+// of the wrong type (src must be a string, w a number), anything after the
+// closing brace, an unknown op, a missing src or dst, an empty or over-long
+// id, a weight that is not a finite positive number (zero only for set) or
+// is given on node-remove, and a time that is neither an RFC 3339 string
+// nor an integer number of milliseconds are all errors. Strings take the
+// JSON escapes, including \uXXXX and surrogate pairs; a lone surrogate is
+// an encoding error. Keys are compared after unescaping and case-sensitively.
+//
+// Edge lists ([EdgeList], [DecodeEdgeList]): "src dst [w [ts]]" per line,
+// separated by spaces, tabs or one comma (with optional blanks around it).
+// Every line is an add. Numeric times are Unix milliseconds, or seconds
+// with [Seconds] (the SNAP files); RFC 3339 times are accepted too. With
+// [ColumnsTime] the layout is "src dst [ts]" (the SNAP temporal files,
+// whose third column is a time, not a weight). Ids cannot contain blanks,
+// commas or double quotes: quoted CSV fields are not supported and fail
+// loudly, as does a JSON line met in an edge list.
+//
+// In both formats, and in the [Reader] and [DecodeMessage], blank lines
+// and lines whose first non-blank byte is '#' are skipped, CRLF line
+// endings and a UTF-8 byte order mark at the start are accepted, and
+// invalid UTF-8 or control bytes (binary data) are encoding errors. [Auto]
+// picks JSON lines when the first line that is neither blank nor a comment
+// starts with '{', an edge list otherwise.
+//
+// # Errors
+//
+// A bad line yields a [*DecodeError] naming the file, the line, the field
+// and what is wrong, with a copy of the line's bytes, for example
+//
+//	karate.tsv:12: weight: not a number "abc"
+//	events.jsonl:3: unknown field "weight"
+//
+// It unwraps to one sentinel ([ErrSyntax], [ErrUnknownOp],
+// [ErrUnknownField], [ErrMissingField], [ErrEmptyID], [ErrIDTooLong],
+// [ErrBadWeight], [ErrBadTime], [ErrBadEncoding], [ErrLineTooLong]) for
+// errors.Is ([ErrDictFull], from Load alone, is not a line fault). The
+// contract by entry point:
+//
+//   - [Reader.Next] returns the error and goes on with the next line when
+//     called again; errors from the underlying reader are sticky.
+//   - [DecodeMessage] returns every good event and one error per bad line:
+//     a bad line never hides the others and is never dropped silently.
+//   - [Load] stops at the first bad line and returns its error and no
+//     partial result.
+//
+// Field names in errors are the JSON keys (op, src, dst, w, ts) for JSON
+// lines and the column names (src, dst, weight, time) for edge lists.
+//
+// # Loading files
+//
+// [Load] and [LoadFile] read a whole file for the one-shot commands and
+// fold its events, in file order, into one weight per unordered pair
+// ([Loaded].Edges, U <= V, self-loops kept) plus the node [Dict]. A
+// node-remove drops the node's edges but leaves the node in the Dict, so
+// Dict.Len() counts it; nodes named only by remove, set 0 or node-remove
+// are not added. The rules are in Load's doc comment.
+//
+// # Store key space
+//
+// TODO(store): the Pebble key space (prefixes, big-endian ids, value
+// encodings) and the exactly-once protocol are described here by the
+// store's author.
+package ingest
