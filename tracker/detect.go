@@ -82,16 +82,19 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 			}
 		}
 	}
-	p := finish(g, comm, c, prevIDs, &next, opts.Resolution)
+	p := finish(g, comm, c, prevIDs, &next, opts.Resolution, s.in, s.tot)
 	p.Levels, p.Moves = s.levels, s.moves
 	return p
 }
 
 // finish turns a dense partition into a Partition: stable ids, statistics
 // and exact modularity.
-func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma float64) *Partition {
+// in and tot, when not nil, are the totals the optimiser already has.
+func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma float64, in, tot []float64) *Partition {
 	ids := assignIDs(comm, c, nil, prev, g.k, next)
-	in, tot := communityTotals(g, comm, c)
+	if in == nil {
+		in, tot = communityTotals(g, comm, c)
+	}
 	size := make([]int, c)
 	for i := range comm {
 		if g.alive[i] {

@@ -20,6 +20,10 @@ type solver struct {
 	levels  int       // levels of the last run
 	split   bool      // the last run may have left a community disconnected
 
+	// in and tot are in_c and tot_c of the communities of the last run,
+	// when it ended with every community a single node (nil otherwise).
+	in, tot []float64
+
 	// onMove, if set, is called after moveFast moves node i from community
 	// from to community to; wFrom and wTo are k_i,from and k_i,to (self-loop
 	// excluded). The tracker keeps its per-community bookkeeping with it.
@@ -36,6 +40,32 @@ func (s *solver) grow(n int) {
 		s.wsum = make([]float64, n)
 		s.ring = make([]uint32, n)
 		s.inq = make([]bool, n)
+	}
+}
+
+// blockMin is the node count from which local moving visits nodes in a
+// seeded random order of blocks of 64 consecutive ids (each block in id
+// order) instead of a fully random order: the adjacency of a block is one
+// sequential read of the slab. Measured at 10^6 edges (LFR, mu = 0.3): the
+// level-0 local moving took about 30% less time, with the same modularity.
+const blockMin = 1 << 12
+
+// visitOrder fills dst with the seeded visiting order of local moving.
+func (s *solver) visitOrder(dst []uint32) {
+	n := len(dst)
+	if n < blockMin {
+		s.perm(dst)
+		return
+	}
+	const b = 64
+	blocks := make([]uint32, (n+b-1)/b)
+	s.perm(blocks)
+	i := 0
+	for _, blk := range blocks {
+		for v := int(blk) * b; v < min(n, int(blk+1)*b); v++ {
+			dst[i] = uint32(v)
+			i++
+		}
 	}
 }
 
@@ -253,67 +283,76 @@ func renumber(x []uint32, scratch []uint32) int {
 // aggregate builds the graph of the groups of ref (values 0..nr-1): one node
 // per group, edge weights summed, the weight inside a group kept as a
 // self-loop so that the degrees and 2m are unchanged (Blondel et al. 2008).
+//
+// It reads the adjacency in slab order (sequential) and scatters the
+// entries into per-group buckets (a counting sort), then sums each bucket
+// with the dense accumulator: two sequential passes instead of one pass in
+// group order, which jumps around the slab.
 func (s *solver) aggregate(l *level, ref []uint32, nr int) level {
 	n := l.n()
 	cnt := make([]uint32, nr+1)
-	for i := 0; i < n; i++ {
-		cnt[ref[i]+1]++
-	}
-	for r := 1; r <= nr; r++ {
-		cnt[r] += cnt[r-1]
-	}
-	members := make([]uint32, n)
-	pos := make([]uint32, nr)
-	copy(pos, cnt[:nr])
-	for i := 0; i < n; i++ {
-		r := ref[i]
-		members[pos[r]] = uint32(i)
-		pos[r]++
-	}
-	entries := 0
-	for i := 0; i < n; i++ {
-		entries += int(l.deg[i])
-	}
 	a := level{
 		start: make([]uint32, nr),
 		deg:   make([]uint32, nr),
-		nbr:   make([]uint32, 0, entries),
-		wt:    make([]float64, 0, entries),
 		self:  make([]float64, nr),
 		k:     make([]float64, nr),
 		m2:    l.m2,
 	}
+	for i := 0; i < n; i++ {
+		r := ref[i]
+		a.self[r] += l.self[i]
+		a.k[r] += l.k[i]
+		cnt[r+1] += l.deg[i]
+	}
+	for r := 1; r <= nr; r++ {
+		cnt[r] += cnt[r-1]
+	}
+	total := cnt[nr]
+	bt := make([]uint32, total)
+	bw := make([]float64, total)
+	pos := make([]uint32, nr)
+	copy(pos, cnt[:nr])
+	for i := 0; i < n; i++ {
+		r := ref[i]
+		st, d := l.start[i], l.deg[i]
+		q := pos[r]
+		for p := st; p < st+d; p++ {
+			bt[q] = ref[l.nbr[p]]
+			bw[q] = l.wt[p]
+			q++
+		}
+		pos[r] = q
+	}
+	// Sum each bucket in place: the output of group r never overtakes its
+	// input, so the buckets become the aggregate's adjacency.
 	wsum := s.wsum
 	touched := s.touched[:0]
+	out := uint32(0)
 	for r := 0; r < nr; r++ {
-		var self, kr float64
-		for _, i := range members[cnt[r]:cnt[r+1]] {
-			self += l.self[i]
-			kr += l.k[i]
-			st, d := l.start[i], l.deg[i]
-			for p := st; p < st+d; p++ {
-				t := ref[l.nbr[p]]
-				if t == uint32(r) {
-					self += l.wt[p] / 2
-					continue
-				}
-				if wsum[t] == 0 {
-					touched = append(touched, t)
-				}
-				wsum[t] += l.wt[p]
+		self := 0.0
+		for q := cnt[r]; q < cnt[r+1]; q++ {
+			t := bt[q]
+			if t == uint32(r) {
+				self += bw[q] / 2
+				continue
 			}
+			if wsum[t] == 0 {
+				touched = append(touched, t)
+			}
+			wsum[t] += bw[q]
 		}
-		a.start[r] = uint32(len(a.nbr))
+		a.self[r] += self
+		a.start[r] = out
 		a.deg[r] = uint32(len(touched))
 		for _, t := range touched {
-			a.nbr = append(a.nbr, t)
-			a.wt = append(a.wt, wsum[t])
+			bt[out], bw[out] = t, wsum[t]
 			wsum[t] = 0
+			out++
 		}
 		touched = touched[:0]
-		a.self[r], a.k[r] = self, kr
 	}
 	s.touched = touched
+	a.nbr, a.wt = bt[:out:out], bw[:out:out]
 	return a
 }
 
@@ -349,7 +388,7 @@ func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
 			tot[comm[i]] += l.k[i]
 		}
 		order := make([]uint32, n)
-		s.perm(order)
+		s.visitOrder(order)
 		s.moves += s.moveFast(&l, comm, tot, order)
 		nc = renumber(comm, s.ring)
 		s.levels = lvl + 1
@@ -388,6 +427,18 @@ func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
 	out := make([]uint32, n0)
 	for i := range out {
 		out[i] = comm[nodeOf[i]]
+	}
+	s.in, s.tot = nil, nil
+	if !s.split {
+		// Every community is one node of the last level: its totals are
+		// that node's self-loop and degree.
+		s.in = make([]float64, nc)
+		s.tot = make([]float64, nc)
+		for v := 0; v < l.n(); v++ {
+			c := comm[v]
+			s.in[c] += 2 * l.self[v]
+			s.tot[c] += l.k[v]
+		}
 	}
 	return out, nc
 }
