@@ -1,0 +1,33 @@
+package tracker_test
+
+import (
+	"os/exec"
+	"strings"
+	"testing"
+)
+
+// TestImports keeps the import direction of DESIGN.md section 2 and
+// STYLE.md section 1: cmd -> ingest, snapshot, events -> tracker, and
+// tracker free of I/O stacks (no NATS, no Pebble, no net, no exec; os only through fmt). The rule and
+// the test follow pebble's TestForbiddenImports.
+func TestImports(t *testing.T) {
+	rules := map[string][]string{
+		"shoal/tracker":  {"github.com/nats-io", "github.com/cockroachdb/pebble", "net", "os/exec", "shoal/ingest", "shoal/snapshot", "shoal/events"},
+		"shoal/ingest":   {"shoal/snapshot", "shoal/events", "shoal/cmd"},
+		"shoal/snapshot": {"shoal/ingest", "shoal/events", "github.com/nats-io", "shoal/cmd"},
+		"shoal/events":   {"shoal/ingest", "shoal/cmd"},
+	}
+	for pkg, forbidden := range rules {
+		out, err := exec.Command("go", "list", "-deps", pkg).CombinedOutput()
+		if err != nil {
+			t.Fatalf("go list %s: %v\n%s", pkg, err, out)
+		}
+		for _, dep := range strings.Fields(string(out)) {
+			for _, f := range forbidden {
+				if dep == f || strings.HasPrefix(dep, f+"/") {
+					t.Errorf("%s depends on %s", pkg, dep)
+				}
+			}
+		}
+	}
+}
