@@ -191,67 +191,73 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 func (s *solver) refine(l *level, comm []uint32, tot []float64, ref []uint32) int {
 	n := l.n()
 	scale := s.gamma / l.m2
-	ext := make([]float64, n)    // w(T, S-T), indexed by the sub-community's first node
-	refTot := make([]float64, n) // tot_T
-	size := make([]uint32, n)
+	// The state read per adjacency entry is packed so that one random
+	// access brings it in: (community, sub-community) per node, and
+	// (w(T, S-T), tot_T, size) per sub-community (indexed by its first
+	// node).
+	type node struct{ comm, ref uint32 }
+	type sub struct {
+		ext, tot float64
+		size     uint32
+	}
+	nd := make([]node, n)
+	sb := make([]sub, n)
 	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
 	for i := 0; i < n; i++ {
-		ref[i] = uint32(i)
-		refTot[i] = k[i]
-		size[i] = 1
+		nd[i] = node{comm[i], uint32(i)}
+	}
+	for i := 0; i < n; i++ {
 		c := comm[i]
 		st, d := startOf[i], degOf[i]
 		var e float64
 		for p := st; p < st+d; p++ {
-			if comm[nbr[p]] == c {
+			if nd[nbr[p]].comm == c {
 				e += wt[p]
 			}
 		}
-		ext[i] = e
-	}
-	order := make([]uint32, n)
-	for i := range order {
-		order[i] = uint32(i)
+		sb[i] = sub{ext: e, tot: k[i], size: 1}
 	}
 	wsum := s.wsum
 	touched := s.touched[:0]
-	for _, v := range order {
-		if size[ref[v]] != 1 {
+	for v := 0; v < n; v++ {
+		own := nd[v].ref
+		if sb[own].size != 1 {
 			continue
 		}
-		S := comm[v]
+		S := nd[v].comm
 		totS, kv := tot[S], k[v]
-		if ext[v] < scale*kv*(totS-kv) {
+		if sb[v].ext < scale*kv*(totS-kv) {
 			continue
 		}
 		st, d := startOf[v], degOf[v]
 		for p := st; p < st+d; p++ {
-			j := nbr[p]
-			if comm[j] != S {
+			j := nd[nbr[p]]
+			if j.comm != S {
 				continue
 			}
-			r := ref[j]
+			r := j.ref
 			if wsum[r] == 0 {
 				touched = append(touched, r)
 			}
 			wsum[r] += wt[p]
 		}
-		own := ref[v]
 		best, bestGain := own, moveTol*kv
 		for _, r := range touched {
-			if ext[r] >= scale*refTot[r]*(totS-refTot[r]) {
-				g := wsum[r] - scale*kv*refTot[r]
+			t := &sb[r]
+			if t.ext >= scale*t.tot*(totS-t.tot) {
+				g := wsum[r] - scale*kv*t.tot
 				if g > bestGain || (g == bestGain && r < best) {
 					best, bestGain = r, g
 				}
 			}
 		}
 		if best != own {
-			size[own]--
-			size[best]++
-			ref[v] = best
-			refTot[best] += kv
-			ext[best] += ext[v] - 2*wsum[best]
+			sb[own].size--
+			b := &sb[best]
+			b.size++
+			b.tot += kv
+			b.ext += sb[v].ext - 2*wsum[best]
+			nd[v].ref = best
 		}
 		for _, r := range touched {
 			wsum[r] = 0
@@ -259,6 +265,9 @@ func (s *solver) refine(l *level, comm []uint32, tot []float64, ref []uint32) in
 		touched = touched[:0]
 	}
 	s.touched = touched
+	for i := range nd {
+		ref[i] = nd[i].ref
+	}
 	return renumber(ref, s.ring)
 }
 
