@@ -1,0 +1,883 @@
+package ingest
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+	"sync"
+	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
+
+	"shoal/tracker"
+)
+
+// ChunkReason says why a chunk of changes is handed to the tracker.
+type ChunkReason uint8
+
+const (
+	// ChunkCount: the event count reached a multiple of ApplyEvery.
+	ChunkCount ChunkReason = iota + 1
+	// ChunkIdle: the stream is idle (nothing pending, or nothing came for
+	// IdleApply); the remainder is applied.
+	ChunkIdle
+	// ChunkFinal: the consumer is stopping; the remainder is applied.
+	ChunkFinal
+)
+
+func (r ChunkReason) String() string {
+	switch r {
+	case ChunkCount:
+		return "count"
+	case ChunkIdle:
+		return "idle"
+	case ChunkFinal:
+		return "final"
+	}
+	return "chunk(" + fmt.Sprint(uint8(r)) + ")"
+}
+
+// Chunk is a run of tracker changes handed to [ConsumerOptions.Apply].
+type Chunk struct {
+	// Changes are the tracker changes of the events of the chunk, in order
+	// (possibly none: a chunk boundary with no effective change).
+	Changes []tracker.Change
+	// Seq is the stream sequence of the message holding the chunk's last
+	// event; Watermark the event-time watermark after it; EventsApplied the
+	// count of good events applied since the store was created, after it.
+	Seq           uint64
+	Watermark     int64
+	EventsApplied uint64
+	Reason        ChunkReason
+	// State is the state the batch will commit. Apply may set
+	// NextCommunity and SnapshotEvents in it.
+	State *State
+}
+
+// CommitInfo describes one committed batch, for [ConsumerOptions.OnCommit].
+type CommitInfo struct {
+	State State
+	// Messages and Events are what the batch applied; Rejects the rejects
+	// it added to the outbox; Duplicates the messages at or below the
+	// stored sequence that it acknowledged without applying.
+	Messages, Events, Rejects, Duplicates int
+	// Lag is the number of messages still pending on the consumer after
+	// the batch's last message, as the server reported it.
+	Lag uint64
+}
+
+// ConsumerOptions configure a [Consumer]. Zero fields take the defaults
+// given with them.
+type ConsumerOptions struct {
+	// Graph is the graph name (required).
+	Graph string
+	// Stream is the ingest stream. Default "SHOAL_EDGES_<graph>".
+	Stream string
+	// Subject is the ingest subject. Default "shoal.edges.<graph>".
+	Subject string
+	// Durable is the durable pull consumer. Default "shoal-<graph>".
+	Durable string
+	// StreamMaxAge and StreamMaxBytes limit the ingest stream when the
+	// consumer creates it (0: unlimited); an existing stream is left as it
+	// is.
+	StreamMaxAge   time.Duration
+	StreamMaxBytes int64
+	// MaxBatch is the largest number of messages in one batch (one Pebble
+	// commit, one ack). Default 1000.
+	MaxBatch int
+	// ApplyEvery: the changes go to the tracker after every ApplyEvery-th
+	// good event, counted from the store's creation (the chunk rule that
+	// shoal replay --apply-every shares). Default 1000.
+	ApplyEvery int
+	// IdleApply: the remainder goes to the tracker when no message came for
+	// this long, even if the server reports more pending. Default 1s. The
+	// remainder also goes as soon as the server reports nothing pending.
+	IdleApply time.Duration
+	// AckWait is the consumer's ack wait. Default 30s.
+	AckWait time.Duration
+	// Pseudonymizer, if set, replaces ids before anything is stored.
+	Pseudonymizer *Pseudonymizer
+	// Apply receives every chunk, in the consumer's goroutine, before the
+	// batch that holds its events commits; what it adds to b commits with
+	// them. nil drops the changes (benchmarks).
+	Apply func(b *Batch, c *Chunk) error
+	// OnCommit is called after every commit, in the consumer's goroutine.
+	OnCommit func(CommitInfo)
+	// OnError receives errors the consumer recovers from (a lost
+	// connection, a delivery gap that makes it reposition, a failed
+	// reposition attempt). nil ignores them.
+	OnError func(error)
+	// Failpoint, if set, is called with the name of each crash point the
+	// consumer passes ("batch-before-commit", "batch-after-commit"), for
+	// crash tests.
+	Failpoint func(name string)
+}
+
+// EnsureDefaults fills in the zero fields.
+func (o *ConsumerOptions) EnsureDefaults() {
+	if o.Stream == "" {
+		o.Stream = "SHOAL_EDGES_" + o.Graph
+	}
+	if o.Subject == "" {
+		o.Subject = "shoal.edges." + o.Graph
+	}
+	if o.Durable == "" {
+		o.Durable = "shoal-" + o.Graph
+	}
+	if o.MaxBatch == 0 {
+		o.MaxBatch = 1000
+	}
+	if o.ApplyEvery == 0 {
+		o.ApplyEvery = 1000
+	}
+	if o.IdleApply == 0 {
+		o.IdleApply = time.Second
+	}
+	if o.AckWait == 0 {
+		o.AckWait = 30 * time.Second
+	}
+}
+
+// Validate reports every problem at once. Call it after EnsureDefaults.
+func (o *ConsumerOptions) Validate() error {
+	var errs []error
+	if !ValidGraphName(o.Graph) {
+		errs = append(errs, fmt.Errorf("graph name %q: want 1..64 letters, digits, '-' or '_'", o.Graph))
+	}
+	if o.Stream == "" || strings.ContainsAny(o.Stream, ".*> \t") {
+		errs = append(errs, fmt.Errorf("stream name %q", o.Stream))
+	}
+	if o.Durable == "" || strings.ContainsAny(o.Durable, ".*> \t") {
+		errs = append(errs, fmt.Errorf("durable name %q", o.Durable))
+	}
+	if o.Subject == "" || strings.ContainsAny(o.Subject, " \t") {
+		errs = append(errs, fmt.Errorf("subject %q", o.Subject))
+	}
+	if o.MaxBatch < 1 {
+		errs = append(errs, fmt.Errorf("max batch %d < 1", o.MaxBatch))
+	}
+	if o.ApplyEvery < 1 {
+		errs = append(errs, fmt.Errorf("apply every %d < 1", o.ApplyEvery))
+	}
+	if o.IdleApply < 0 || o.AckWait < time.Second || o.StreamMaxAge < 0 || o.StreamMaxBytes < 0 {
+		errs = append(errs, errors.New("durations and limits must be positive (ack wait at least 1s)"))
+	}
+	if len(errs) > 0 {
+		return fmt.Errorf("ingest: consumer options: %w", errors.Join(errs...))
+	}
+	return nil
+}
+
+// ConsumerStats are the consumer's counters, for /v1/stats and metrics.
+type ConsumerStats struct {
+	// State is the last committed state.
+	State State
+	// Pending is the number of changes not yet handed to the tracker.
+	Pending int
+	// Duplicates counts messages acknowledged without being applied (at or
+	// below the stored sequence) since start; Repositions the times the
+	// consumer was reset to the stored sequence after a delivery gap.
+	Duplicates, Repositions uint64
+	// Lag is the number of messages pending on the server after the last
+	// message received.
+	Lag uint64
+	// Consuming is true while the consumer is positioned and receiving.
+	Consuming bool
+}
+
+// Consumer reads edge events from a JetStream stream into a [Store] through
+// a [Feed] and hands the tracker changes to ConsumerOptions.Apply, with the
+// exactly-once protocol of doc.go. [Consumer.Run] owns the goroutine that
+// does the work; the other methods may be called from any goroutine.
+type Consumer struct {
+	o     ConsumerOptions
+	js    jetstream.JetStream
+	store *Store
+	feed  *Feed
+
+	// Owned by the Run goroutine.
+	st       State // includes the batch being built
+	changes  []tracker.Change
+	chunkSeq uint64
+	batch    *Batch
+	dirty    map[uint64]struct{}
+	present  []bool
+	flipped  []uint32 // nodes whose presence changed in the batch
+	written  int      // node ids below this have a record in the store
+	events   []Event
+	lastPend uint64
+	expect   uint64 // next consumer (delivery) sequence
+	window   bool
+	bEvents  int
+	bRejects int
+	bDups    int
+	bMsgs    int
+
+	sub *subscription
+
+	mu struct {
+		sync.Mutex
+		stats   ConsumerStats
+		running bool
+	}
+}
+
+// NewConsumer returns a consumer over a store, the feed restored from it
+// and the presence flags of its nodes (Restored.Present). It does not touch
+// the network until Run.
+func NewConsumer(js jetstream.JetStream, s *Store, feed *Feed, present []bool, o *ConsumerOptions) (*Consumer, error) {
+	oo := *o
+	oo.EnsureDefaults()
+	if err := oo.Validate(); err != nil {
+		return nil, err
+	}
+	c := &Consumer{
+		o:       oo,
+		js:      js,
+		store:   s,
+		feed:    feed,
+		st:      s.State(),
+		batch:   s.NewBatch(),
+		dirty:   make(map[uint64]struct{}),
+		present: append([]bool(nil), present...),
+		written: feed.Dict().Len(),
+		window:  s.Meta().Window > 0,
+	}
+	c.mu.stats.State = c.st
+	feed.Window().SetObserver(c.observe)
+	return c, nil
+}
+
+// observe records every increment change: the edge is dirty, and with a
+// window the increment itself is written.
+func (c *Consumer) observe(inc Increment) {
+	c.dirty[edgeKey(inc.U, inc.V)] = struct{}{}
+	if c.window {
+		if err := c.batch.PutIncrement(inc); err != nil {
+			panic(err) // a batch Set fails only on a closed batch: a bug
+		}
+	}
+}
+
+// Stats returns the current counters.
+func (c *Consumer) Stats() ConsumerStats {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.mu.stats
+}
+
+// Options returns the options with defaults filled in.
+func (c *Consumer) Options() ConsumerOptions { return c.o }
+
+var errReposition = errors.New("ingest: delivery gap")
+
+// Run consumes until ctx is done or a fatal error (a failed commit, a
+// stream or consumer that cannot be set up as configured). It creates the
+// stream and the durable consumer if absent, positions the consumer at the
+// stored sequence + 1, and from then on: fetch a batch, decode, fold, write
+// it with its state in one synced commit, ack. When ctx is done it stops
+// fetching, finishes and commits the batch in hand, hands the remainder to
+// Apply as a ChunkFinal, commits, and returns nil. Broker outages are
+// ridden out: the connection reconnects and the consumer repositions at
+// the stored sequence when deliveries were lost.
+func (c *Consumer) Run(ctx context.Context) error {
+	c.mu.Lock()
+	if c.mu.running {
+		c.mu.Unlock()
+		return errors.New("ingest: consumer already running")
+	}
+	c.mu.running = true
+	c.mu.Unlock()
+	defer func() {
+		c.mu.Lock()
+		c.mu.running = false
+		c.mu.stats.Consuming = false
+		c.mu.Unlock()
+	}()
+	err := c.loop(ctx)
+	if ctx.Err() != nil && (err == nil || errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)) {
+		return c.finish()
+	}
+	return err
+}
+
+func (c *Consumer) loop(ctx context.Context) error {
+	if err := retry(ctx, c.o.OnError, func(ctx context.Context) error { return c.setup(ctx) }); err != nil {
+		return err
+	}
+	for {
+		if err := retry(ctx, c.o.OnError, func(ctx context.Context) error { return c.position(ctx) }); err != nil {
+			return err
+		}
+		err := c.consume(ctx)
+		c.sub.stop()
+		c.sub = nil
+		c.setConsuming(false)
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		if errors.Is(err, errReposition) {
+			c.report(err)
+			c.mu.Lock()
+			c.mu.stats.Repositions++
+			c.mu.Unlock()
+			continue
+		}
+		return err
+	}
+}
+
+func (c *Consumer) setConsuming(v bool) {
+	c.mu.Lock()
+	c.mu.stats.Consuming = v
+	c.mu.Unlock()
+}
+
+func (c *Consumer) report(err error) {
+	if c.o.OnError != nil && err != nil {
+		c.o.OnError(err)
+	}
+}
+
+func (c *Consumer) failpoint(name string) {
+	if c.o.Failpoint != nil {
+		c.o.Failpoint(name)
+	}
+}
+
+// setup creates the ingest stream and the durable consumer if absent.
+func (c *Consumer) setup(ctx context.Context) error {
+	_, err := EnsureStream(ctx, c.js, jetstream.StreamConfig{
+		Name:        c.o.Stream,
+		Description: "shoal edge events of graph " + c.o.Graph,
+		Subjects:    []string{c.o.Subject},
+		Storage:     jetstream.FileStorage,
+		MaxAge:      c.o.StreamMaxAge,
+		MaxBytes:    orUnlimited(c.o.StreamMaxBytes),
+	})
+	if err != nil {
+		return err
+	}
+	rctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	_, err = c.js.CreateOrUpdateConsumer(rctx, c.o.Stream, c.consumerConfig())
+	if err != nil {
+		return fmt.Errorf("ingest: consumer %s on stream %s: %w", c.o.Durable, c.o.Stream, err)
+	}
+	return nil
+}
+
+func orUnlimited(n int64) int64 {
+	if n == 0 {
+		return -1
+	}
+	return n
+}
+
+func (c *Consumer) consumerConfig() jetstream.ConsumerConfig {
+	return jetstream.ConsumerConfig{
+		Durable:       c.o.Durable,
+		Description:   "shoal ingest of graph " + c.o.Graph,
+		FilterSubject: c.o.Subject,
+		DeliverPolicy: jetstream.DeliverAllPolicy,
+		// One ack per batch: acking its last message acks all before it.
+		AckPolicy:     jetstream.AckAllPolicy,
+		AckWait:       c.o.AckWait,
+		MaxDeliver:    -1,
+		MaxAckPending: -1,
+	}
+}
+
+// EnsureStream returns the stream named cfg.Name, creating it with cfg if
+// it does not exist. An existing stream is left as it is.
+func EnsureStream(ctx context.Context, js jetstream.JetStream, cfg jetstream.StreamConfig) (jetstream.Stream, error) {
+	rctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	s, err := js.Stream(rctx, cfg.Name)
+	if err == nil {
+		return s, nil
+	}
+	if !errors.Is(err, jetstream.ErrStreamNotFound) {
+		return nil, fmt.Errorf("ingest: stream %s: %w", cfg.Name, err)
+	}
+	s, err = js.CreateStream(rctx, cfg)
+	if errors.Is(err, jetstream.ErrStreamNameAlreadyInUse) {
+		s, err = js.Stream(rctx, cfg.Name)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("ingest: create stream %s: %w", cfg.Name, err)
+	}
+	return s, nil
+}
+
+// position resets the durable consumer to the stored sequence + 1 and
+// starts receiving. The store, not the consumer's own state, says where
+// ingest stands: after a crash between commit and ack, or after deliveries
+// lost in a broker outage, this is what makes every message count once.
+func (c *Consumer) position(ctx context.Context) error {
+	from := c.st.Applied + 1
+	rctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	if _, err := c.js.ResetConsumerToSequence(rctx, c.o.Stream, c.o.Durable, from); err != nil {
+		if !errors.Is(err, jetstream.ErrConsumerNotFound) && !isAPIError(err) {
+			return fmt.Errorf("ingest: reset consumer %s to %d: %w", c.o.Durable, from, err)
+		}
+		// Gone, or a server without the reset API: create it afresh at the
+		// position.
+		if err := c.recreate(rctx, from); err != nil {
+			return err
+		}
+	}
+	cons, err := c.js.Consumer(rctx, c.o.Stream, c.o.Durable)
+	if err != nil {
+		return fmt.Errorf("ingest: consumer %s: %w", c.o.Durable, err)
+	}
+	c.expect = 1
+	c.sub, err = subscribe(cons, c.o.MaxBatch)
+	if err != nil {
+		return fmt.Errorf("ingest: consume %s: %w", c.o.Durable, err)
+	}
+	c.setConsuming(true)
+	return nil
+}
+
+func isAPIError(err error) bool {
+	var api *jetstream.APIError
+	return errors.As(err, &api)
+}
+
+func (c *Consumer) recreate(ctx context.Context, from uint64) error {
+	if err := c.js.DeleteConsumer(ctx, c.o.Stream, c.o.Durable); err != nil && !errors.Is(err, jetstream.ErrConsumerNotFound) {
+		return fmt.Errorf("ingest: delete consumer %s: %w", c.o.Durable, err)
+	}
+	cfg := c.consumerConfig()
+	if from > 1 {
+		cfg.DeliverPolicy = jetstream.DeliverByStartSequencePolicy
+		cfg.OptStartSeq = from
+	}
+	if _, err := c.js.CreateConsumer(ctx, c.o.Stream, cfg); err != nil {
+		return fmt.Errorf("ingest: create consumer %s at %d: %w", c.o.Durable, from, err)
+	}
+	return nil
+}
+
+// consume runs batches until ctx is done, a delivery gap or a fatal error.
+func (c *Consumer) consume(ctx context.Context) error {
+	var msgs []jetstream.Msg
+	for {
+		var err error
+		idle := time.Duration(0)
+		if len(c.changes) > 0 || c.chunkPending() {
+			idle = c.o.IdleApply
+		}
+		msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, idle)
+		switch {
+		case errors.Is(err, errIdle):
+			if err := c.idleChunk(); err != nil {
+				return err
+			}
+			continue
+		case err != nil:
+			return err
+		}
+		gap, err := c.process(msgs)
+		if err != nil {
+			return err
+		}
+		if gap {
+			return errReposition
+		}
+		if c.lastPend == 0 && c.sub.buffered() == 0 && (len(c.changes) > 0 || c.chunkPending()) {
+			if err := c.idleChunk(); err != nil {
+				return err
+			}
+		}
+	}
+}
+
+// chunkPending reports whether events were applied since the last chunk
+// (their changes may be empty, but the tracker's owner still hears of the
+// boundary).
+func (c *Consumer) chunkPending() bool { return c.chunkSeq != 0 }
+
+// process applies a batch of messages, commits and acks. It stops at a
+// delivery gap (returns gap true) after committing what came before it.
+func (c *Consumer) process(msgs []jetstream.Msg) (gap bool, err error) {
+	var last jetstream.Msg
+	for _, m := range msgs {
+		meta, err := m.Metadata()
+		if err != nil {
+			// Not a JetStream delivery: nothing to ack, nothing to apply.
+			c.report(fmt.Errorf("ingest: message without metadata: %w", err))
+			continue
+		}
+		if meta.Sequence.Consumer != c.expect {
+			c.report(fmt.Errorf("%w: delivery %d where %d was expected (stream seq %d)", errReposition, meta.Sequence.Consumer, c.expect, meta.Sequence.Stream))
+			gap = true
+			break
+		}
+		c.expect++
+		c.lastPend = meta.NumPending
+		last = m
+		if meta.Sequence.Stream <= c.st.Applied {
+			c.bDups++
+			continue
+		}
+		if err := c.apply(meta.Sequence.Stream, meta.Timestamp.UnixMilli(), m.Data()); err != nil {
+			return false, err
+		}
+	}
+	if last == nil {
+		return gap, nil
+	}
+	if err := c.commit(); err != nil {
+		return false, err
+	}
+	c.failpoint("batch-after-commit")
+	// AckAll: this acks every message of the batch. A lost ack only means
+	// a redelivery, which is skipped as at or below the stored sequence.
+	if err := last.Ack(); err != nil {
+		c.report(fmt.Errorf("ingest: ack: %w", err))
+	}
+	return gap, nil
+}
+
+// apply decodes and folds one message into the batch being built.
+func (c *Consumer) apply(seq uint64, arrival int64, data []byte) error {
+	var errs []*DecodeError
+	c.events, errs = DecodeMessage(data, c.events)
+	if len(c.events) == 0 && len(errs) == 0 {
+		c.st.EventsRejected++
+		c.bRejects++
+		r := Reject{Seq: seq, Code: CodeEmptyMessage, Reason: "the message holds no event", Raw: append([]byte{}, data...), Time: arrival}
+		if c.o.Pseudonymizer != nil {
+			r.Raw = nil
+		}
+		if err := c.batch.PutReject(&r); err != nil {
+			return err
+		}
+	}
+	for i := range c.events {
+		ev := &c.events[i]
+		if p := c.o.Pseudonymizer; p != nil {
+			p.Apply(ev)
+		}
+		n0 := len(c.changes)
+		c.changes = c.feed.Append(c.changes, ev, arrival)
+		c.trackPresence(c.changes[n0:])
+		c.st.EventsApplied++
+		c.bEvents++
+		c.chunkSeq = seq
+		if c.st.EventsApplied%uint64(c.o.ApplyEvery) == 0 {
+			c.st.Watermark = c.feed.Watermark()
+			if err := c.chunk(ChunkCount, seq); err != nil {
+				return err
+			}
+		}
+	}
+	for _, e := range errs {
+		c.st.EventsRejected++
+		c.bRejects++
+		r := Reject{Seq: seq, Line: e.Line, Code: RejectCode(e), Field: e.Field, Reason: e.Error(), Raw: e.Raw, Time: arrival}
+		if r.Raw == nil {
+			r.Raw = []byte{}
+		}
+		if c.o.Pseudonymizer != nil {
+			r.Reason, r.Raw = "", nil
+		}
+		if err := c.batch.PutReject(&r); err != nil {
+			return err
+		}
+	}
+	c.st.Applied = seq
+	c.st.Messages++
+	c.st.Watermark = c.feed.Watermark()
+	c.bMsgs++
+	return nil
+}
+
+// trackPresence mirrors in c.present what the tracker will do with the
+// changes: an add or set makes both ends present, a node removal absent.
+func (c *Consumer) trackPresence(chs []tracker.Change) {
+	for _, ch := range chs {
+		switch ch.Op {
+		case tracker.OpAdd, tracker.OpSet:
+			c.setPresent(ch.U, true)
+			c.setPresent(ch.V, true)
+		case tracker.OpRemoveNode:
+			c.setPresent(ch.U, false)
+		}
+	}
+}
+
+func (c *Consumer) setPresent(u uint32, p bool) {
+	for int(u) >= len(c.present) {
+		c.present = append(c.present, false)
+	}
+	if c.present[u] != p {
+		c.present[u] = p
+		if int(u) < c.written {
+			c.flipped = append(c.flipped, u)
+		}
+	}
+}
+
+// chunk hands the pending changes to Apply.
+func (c *Consumer) chunk(reason ChunkReason, seq uint64) error {
+	ch := Chunk{
+		Changes:       c.changes,
+		Seq:           seq,
+		Watermark:     c.st.Watermark,
+		EventsApplied: c.st.EventsApplied,
+		Reason:        reason,
+		State:         &c.st,
+	}
+	if c.o.Apply != nil {
+		if err := c.o.Apply(c.batch, &ch); err != nil {
+			return fmt.Errorf("ingest: apply chunk ending at seq %d: %w", seq, err)
+		}
+	}
+	c.changes = c.changes[:0]
+	c.chunkSeq = 0
+	c.setPending(0)
+	return nil
+}
+
+func (c *Consumer) setPending(n int) {
+	c.mu.Lock()
+	c.mu.stats.Pending = n
+	c.mu.Unlock()
+}
+
+// idleChunk applies the remainder and commits it (with whatever Apply
+// wrote: a snapshot).
+func (c *Consumer) idleChunk() error {
+	if err := c.chunk(ChunkIdle, c.st.Applied); err != nil {
+		return err
+	}
+	return c.commit()
+}
+
+// finish applies the remainder as a final chunk and commits it.
+func (c *Consumer) finish() error {
+	if err := c.chunk(ChunkFinal, c.st.Applied); err != nil {
+		return err
+	}
+	return c.commit()
+}
+
+// commit writes the new nodes, the presence changes, the dirty edges and
+// the state into the batch and commits it, synced.
+func (c *Consumer) commit() error {
+	d := c.feed.Dict()
+	for id := c.written; id < d.Len(); id++ {
+		if err := c.batch.PutNode(uint32(id), d.Name(uint32(id)), id < len(c.present) && c.present[id]); err != nil {
+			return err
+		}
+	}
+	for _, u := range c.flipped {
+		if err := c.batch.PutNode(u, d.Name(u), c.present[u]); err != nil {
+			return err
+		}
+	}
+	win := c.feed.Window()
+	for k := range c.dirty {
+		u, v := uint32(k>>32), uint32(k)
+		if err := c.batch.PutEdge(u, v, win.Weight(u, v)); err != nil {
+			return err
+		}
+	}
+	if err := c.batch.PutState(&c.st); err != nil {
+		return err
+	}
+	c.failpoint("batch-before-commit")
+	if err := c.store.Commit(c.batch, &c.st); err != nil {
+		return err
+	}
+	c.written = d.Len()
+	c.flipped = c.flipped[:0]
+	clear(c.dirty)
+	c.batch.Reset()
+	info := CommitInfo{State: c.st, Messages: c.bMsgs, Events: c.bEvents, Rejects: c.bRejects, Duplicates: c.bDups, Lag: c.lastPend}
+	c.bMsgs, c.bEvents, c.bRejects, c.bDups = 0, 0, 0, 0
+	c.mu.Lock()
+	c.mu.stats.State = c.st
+	c.mu.stats.Pending = len(c.changes)
+	c.mu.stats.Duplicates += uint64(info.Duplicates)
+	c.mu.stats.Lag = c.lastPend
+	c.mu.Unlock()
+	if c.o.OnCommit != nil {
+		c.o.OnCommit(info)
+	}
+	return nil
+}
+
+// Drain receives n messages from stream sequence from on through the same
+// subscription, batching and acks as Run, and does nothing with them; it
+// measures the raw rate of the consumer (cmd/shoal-bench ingest). It
+// leaves the store alone.
+func (c *Consumer) Drain(ctx context.Context, from uint64, n int) error {
+	if err := c.setup(ctx); err != nil {
+		return err
+	}
+	saved := c.st.Applied
+	c.st.Applied = from - 1
+	err := c.position(ctx)
+	c.st.Applied = saved
+	if err != nil {
+		return err
+	}
+	defer func() { c.sub.stop(); c.sub = nil }()
+	var msgs []jetstream.Msg
+	for got := 0; got < n; {
+		var err error
+		msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, 0)
+		if err != nil {
+			return err
+		}
+		var last jetstream.Msg
+		for _, m := range msgs {
+			meta, err := m.Metadata()
+			if err != nil {
+				continue
+			}
+			if meta.Sequence.Consumer != c.expect {
+				return fmt.Errorf("%w during drain", errReposition)
+			}
+			c.expect++
+			_ = m.Data()
+			last = m
+			got++
+		}
+		if last != nil {
+			if err := last.Ack(); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// retry calls fn until it succeeds, ctx is done, or it fails with an error
+// that waiting will not cure; between attempts it backs off from 100ms to
+// 5s.
+func retry(ctx context.Context, onErr func(error), fn func(context.Context) error) error {
+	wait := 100 * time.Millisecond
+	for {
+		err := fn(ctx)
+		if err == nil {
+			return nil
+		}
+		if ctx.Err() != nil {
+			return ctx.Err()
+		}
+		if !transient(err) {
+			return err
+		}
+		if onErr != nil {
+			onErr(fmt.Errorf("%w (retrying in %v)", err, wait))
+		}
+		t := time.NewTimer(wait)
+		select {
+		case <-ctx.Done():
+			t.Stop()
+			return ctx.Err()
+		case <-t.C:
+		}
+		wait = min(2*wait, 5*time.Second)
+	}
+}
+
+// transient reports whether err is about the server being away or busy
+// rather than about the configuration.
+func transient(err error) bool {
+	switch {
+	case errors.Is(err, context.DeadlineExceeded),
+		errors.Is(err, nats.ErrTimeout),
+		errors.Is(err, nats.ErrNoResponders),
+		errors.Is(err, nats.ErrDisconnected),
+		errors.Is(err, nats.ErrConnectionReconnecting),
+		errors.Is(err, jetstream.ErrNoStreamResponse),
+		errors.Is(err, jetstream.ErrJetStreamNotEnabled),
+		errors.Is(err, jetstream.ErrJetStreamNotEnabledForAccount):
+		return true
+	}
+	var api *jetstream.APIError
+	if errors.As(err, &api) {
+		// 503: JetStream temporarily unavailable (no quorum, starting up).
+		return api.Code == 503
+	}
+	return false
+}
+
+var errIdle = errors.New("ingest: idle")
+
+// subscription is one incarnation of the pull subscription: the library's
+// Consume callback feeds a buffered channel that the Run goroutine reads in
+// batches. A new one is made at every (re)position, so that deliveries to
+// an old one can never be mistaken for new ones.
+type subscription struct {
+	cc   jetstream.ConsumeContext
+	ch   chan jetstream.Msg
+	quit chan struct{}
+}
+
+func subscribe(cons jetstream.Consumer, batch int) (*subscription, error) {
+	s := &subscription{ch: make(chan jetstream.Msg, 2*batch), quit: make(chan struct{})}
+	cc, err := cons.Consume(func(m jetstream.Msg) {
+		select {
+		case s.ch <- m:
+		case <-s.quit:
+		}
+	}, jetstream.PullMaxMessages(batch))
+	if err != nil {
+		return nil, err
+	}
+	s.cc = cc
+	return s, nil
+}
+
+// stop ends the subscription and waits for the library to let go of it.
+func (s *subscription) stop() {
+	if s == nil {
+		return
+	}
+	close(s.quit)
+	s.cc.Stop()
+	select {
+	case <-s.cc.Closed():
+	case <-time.After(5 * time.Second):
+	}
+}
+
+func (s *subscription) buffered() int { return len(s.ch) }
+
+// next waits for a first message (at most idle, if idle > 0, after which it
+// returns errIdle), then takes what is already there, up to max.
+func (s *subscription) next(ctx context.Context, dst []jetstream.Msg, max int, idle time.Duration) ([]jetstream.Msg, error) {
+	var timeout <-chan time.Time
+	if idle > 0 {
+		t := time.NewTimer(idle)
+		defer t.Stop()
+		timeout = t.C
+	}
+	select {
+	case m := <-s.ch:
+		dst = append(dst, m)
+	case <-ctx.Done():
+		return dst, ctx.Err()
+	case <-timeout:
+		return dst, errIdle
+	}
+	for len(dst) < max {
+		select {
+		case m := <-s.ch:
+			dst = append(dst, m)
+		default:
+			return dst, nil
+		}
+	}
+	return dst, nil
+}
