@@ -4,6 +4,7 @@
 //
 //	shoal-bench static [--max-edges N] [--json]
 //	shoal-bench incremental [--max-edges N] [--batches K] [--json]
+//	shoal-bench accuracy [--n N] [--runs K] [--json]
 package main
 
 import (
@@ -30,6 +31,8 @@ func main() {
 		err = runStatic(ctx, os.Args[2:], os.Stdout)
 	case "incremental":
 		err = runIncremental(ctx, os.Args[2:], os.Stdout)
+	case "accuracy":
+		err = runAccuracy(ctx, os.Args[2:], os.Stdout)
 	case "help", "-h", "--help":
 		usage(os.Stdout)
 		return
@@ -44,7 +47,7 @@ func main() {
 }
 
 func usage(w io.Writer) {
-	fmt.Fprintln(w, "usage: shoal-bench static|incremental [--max-edges N] [--json]")
+	fmt.Fprintln(w, "usage: shoal-bench static|incremental|accuracy [options] [--json]")
 }
 
 // emitter prints rows as a table or as JSON lines.
