@@ -128,6 +128,8 @@ type Window struct {
 	efree        []uint32
 	edges        int
 	nodeHead     []uint32 // first half-edge of each node
+	isolated     []uint32 // nodes that lost their last edge, while collect
+	collect      bool     // set inside AppendChanges and AppendExpire
 
 	tab edgeTable
 }
@@ -355,28 +357,18 @@ func (win *Window) Increments(dst []Increment) []Increment {
 //     OpAdd of minus what was consumed, or OpDelete when the edge is gone;
 //     set → OpSet of the new weight, or OpDelete when that is 0 and the edge
 //     existed; node-remove → OpRemoveNode u (always: the node may have no
-//     edges and still be in the graph).
+//     edges and still be in the graph);
+//  3. after each OpDelete (and after the OpRemoveNode), an OpRemoveNode for
+//     each endpoint (neighbour) left with no edge, so that the tracker holds
+//     exactly the nodes that have an edge in the window: a node whose edges
+//     have all expired is not counted as a community of one.
 //
 // ts is the event's time, or the watermark for an event without one. No
 // change names an edge that the window does not hold, so a subtraction
 // never creates nodes in the tracker.
 func (win *Window) AppendChanges(dst []tracker.Change, op Op, ts int64, u, v uint32, w float64, hasW bool) []tracker.Change {
-	if ts > win.wm {
-		win.wm = ts
-	}
-	for len(win.heap) > 0 {
-		s := win.heap[0]
-		if win.exp[s] > win.wm {
-			break
-		}
-		e := win.edge[s]
-		a, b, x := win.eu[e], win.ev[e], win.w[s]
-		if win.drop(s) {
-			dst = append(dst, tracker.Change{Op: tracker.OpDelete, U: a, V: b})
-		} else {
-			dst = append(dst, tracker.Change{Op: tracker.OpAdd, U: a, V: b, W: -x})
-		}
-	}
+	dst = win.AppendExpire(dst, ts)
+	win.collect = true
 	switch op {
 	case OpAdd:
 		if !hasW {
@@ -410,7 +402,35 @@ func (win *Window) AppendChanges(dst []tracker.Change, op Op, ts int64, u, v uin
 	case OpNodeRemove:
 		win.RemoveNode(u)
 		dst = append(dst, tracker.Change{Op: tracker.OpRemoveNode, U: u})
+		dst = win.appendIsolated(dst, u)
 	}
+	win.collect = false
+	return win.appendIsolated(dst, noIdx)
+}
+
+// AppendExpire is step 1 of AppendChanges alone (with the OpRemoveNode of
+// step 3), for an event that changes no edge but moves the watermark (one
+// that names a node the caller has never added).
+func (win *Window) AppendExpire(dst []tracker.Change, ts int64) []tracker.Change {
+	if ts > win.wm {
+		win.wm = ts
+	}
+	win.collect = true
+	for len(win.heap) > 0 {
+		s := win.heap[0]
+		if win.exp[s] > win.wm {
+			break
+		}
+		e := win.edge[s]
+		a, b, x := win.eu[e], win.ev[e], win.w[s]
+		if win.drop(s) {
+			dst = append(dst, tracker.Change{Op: tracker.OpDelete, U: a, V: b})
+			dst = win.appendIsolated(dst, noIdx)
+		} else {
+			dst = append(dst, tracker.Change{Op: tracker.OpAdd, U: a, V: b, W: -x})
+		}
+	}
+	win.collect = false
 	return dst
 }
 
@@ -498,13 +518,38 @@ func (win *Window) unlinkHalf(h, node uint32) {
 	}
 }
 
-// freeEdge releases an edge that has no increment left.
+// freeEdge releases an edge that has no increment left and notes the
+// endpoints it leaves without an edge.
 func (win *Window) freeEdge(e uint32) {
-	win.tab.remove(uint64(win.eu[e])<<32 | uint64(win.ev[e]))
-	win.unlinkHalf(2*e, win.eu[e])
-	win.unlinkHalf(2*e+1, win.ev[e])
+	u, v := win.eu[e], win.ev[e]
+	win.tab.remove(uint64(u)<<32 | uint64(v))
+	win.unlinkHalf(2*e, u)
+	win.unlinkHalf(2*e+1, v)
 	win.efree = append(win.efree, e)
 	win.edges--
+	if !win.collect {
+		return
+	}
+	if win.nodeHead[u] == noIdx {
+		win.isolated = append(win.isolated, u)
+	}
+	if v != u && win.nodeHead[v] == noIdx {
+		win.isolated = append(win.isolated, v)
+	}
+}
+
+// appendIsolated appends an OpRemoveNode for every node that lost its last
+// edge since the last call (except skip) and clears the list.
+func (win *Window) appendIsolated(dst []tracker.Change, skip uint32) []tracker.Change {
+	for _, x := range win.isolated {
+		// A node can be listed, get an edge back within the same event
+		// (Set drops, then adds) and keep it.
+		if x != skip && win.nodeHead[x] == noIdx {
+			dst = append(dst, tracker.Change{Op: tracker.OpRemoveNode, U: x})
+		}
+	}
+	win.isolated = win.isolated[:0]
+	return dst
 }
 
 // dropEdge drops every increment of e (which frees it) and returns their

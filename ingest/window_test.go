@@ -526,9 +526,10 @@ func TestWindowObserverRestore(t *testing.T) {
 
 // TestWindowAppendChangesKeepTrackerEqual: the changes AppendChanges
 // returns, applied to the real tracker in batches, leave its graph with the
-// window's edges and weights, and never create a node that the window has
-// no edge for (a subtraction of an absent edge must not). The tracker's own
-// invariant checker runs after every batch.
+// window's edges and weights and exactly the nodes that have an edge in the
+// window (a subtraction of an absent edge must not create nodes, a node
+// whose edges all went must go). The tracker's own invariant checker runs
+// after every batch.
 func TestWindowAppendChangesKeepTrackerEqual(t *testing.T) {
 	for _, span := range []time.Duration{0, 20 * time.Millisecond} {
 		win := NewWindow(span)
@@ -551,7 +552,9 @@ func TestWindowAppendChangesKeepTrackerEqual(t *testing.T) {
 				t.Fatalf("span %v after %d events: %v", span, i, err)
 			}
 			g := tr.Graph()
+			withEdge := 0
 			for a := 0; a < s.nodes; a++ {
+				has := false
 				for b := 0; b < s.nodes; b++ {
 					ww, gw := win.Weight(uint32(a), uint32(b)), 0.0
 					if a < g.Len() && b < g.Len() {
@@ -560,7 +563,17 @@ func TestWindowAppendChangesKeepTrackerEqual(t *testing.T) {
 					if math.Abs(ww-gw) > 1e-9*max(1, ww) {
 						t.Fatalf("span %v after %d events: weight %d-%d window %v, tracker %v", span, i, a, b, ww, gw)
 					}
+					has = has || ww > 0
 				}
+				if has {
+					withEdge++
+				}
+				if present := a < g.Len() && g.Has(uint32(a)); present != has {
+					t.Fatalf("span %v after %d events: node %d present %v, has a window edge %v", span, i, a, present, has)
+				}
+			}
+			if g.Nodes() != withEdge {
+				t.Fatalf("span %v after %d events: tracker has %d nodes, %d have window edges", span, i, g.Nodes(), withEdge)
 			}
 			if g.Edges() != win.Edges() {
 				t.Fatalf("span %v after %d events: tracker has %d edges, window %d", span, i, g.Edges(), win.Edges())
@@ -591,12 +604,18 @@ func TestWindowAppendChanges(t *testing.T) {
 		{OpAdd, 3, 1, 2, 4, true, []C{{Op: tracker.OpAdd, U: 1, V: 2, W: 4}}},
 		{OpRemove, 4, 2, 1, 2, true, []C{{Op: tracker.OpAdd, U: 2, V: 1, W: -2}}}, // 1 (ts 0) whole, 1 of 4 (ts 3)
 		// ts 10: the ts-0 increment is already consumed; nothing expires
-		// until 11 (2-3, its last: delete).
-		{OpAdd, 11, 4, 5, 1, true, []C{{Op: tracker.OpDelete, U: 2, V: 3}, {Op: tracker.OpAdd, U: 4, V: 5, W: 1}}},
+		// until 11 (2-3, its last: delete; node 3 has no edge left, node 2
+		// still has 1-2).
+		{OpAdd, 11, 4, 5, 1, true, []C{{Op: tracker.OpDelete, U: 2, V: 3}, {Op: tracker.OpRemoveNode, U: 3}, {Op: tracker.OpAdd, U: 4, V: 5, W: 1}}},
 		{OpSet, 12, 1, 2, 9, true, []C{{Op: tracker.OpSet, U: 1, V: 2, W: 9}}},
 		{OpAdd, 1, 1, 2, 5, true, nil}, // late: expiry 11 <= watermark 12
-		{OpNodeRemove, 12, 1, 0, 0, false, []C{{Op: tracker.OpRemoveNode, U: 1}}},
-		{OpRemove, 12, 4, 5, 0, false, []C{{Op: tracker.OpDelete, U: 4, V: 5}}},
+		// Removing node 1 takes 1-2, node 2's last edge.
+		{OpNodeRemove, 12, 1, 0, 0, false, []C{{Op: tracker.OpRemoveNode, U: 1}, {Op: tracker.OpRemoveNode, U: 2}}},
+		{OpRemove, 12, 4, 5, 0, false, []C{{Op: tracker.OpDelete, U: 4, V: 5}, {Op: tracker.OpRemoveNode, U: 4}, {Op: tracker.OpRemoveNode, U: 5}}},
+		// A set that replaces an edge's increments keeps its endpoints.
+		{OpAdd, 13, 6, 7, 1, true, []C{{Op: tracker.OpAdd, U: 6, V: 7, W: 1}}},
+		{OpSet, 14, 7, 6, 2, true, []C{{Op: tracker.OpSet, U: 7, V: 6, W: 2}}},
+		{OpSet, 15, 6, 7, 0, true, []C{{Op: tracker.OpDelete, U: 6, V: 7}, {Op: tracker.OpRemoveNode, U: 6}, {Op: tracker.OpRemoveNode, U: 7}}},
 		{OpSet, 30, 6, 7, 0, true, nil},
 	}
 	for i, s := range steps {
