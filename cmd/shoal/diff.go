@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"path/filepath"
+	"slices"
 	"strings"
 	"time"
 
@@ -22,7 +23,9 @@ import (
 // The communities of OLD come from a static run (seeded); those of NEW from
 // a run warm-started from OLD's partition, node by node through the
 // external ids (tracker.DetectFrom), so that regions that did not change
-// keep their community ids. The two partitions are frozen as snapshots 1
+// keep their community ids. Each partition is then settled: warm-started
+// passes are repeated until it stops changing (at most 10), so that a file
+// diffed against itself gives only continue events. The two partitions are frozen as snapshots 1
 // and 2 in one node-id space (OLD's ids, then the ids only NEW has) and
 // classified by package events; the events go out as JSON lines. Snapshot
 // times are --old-time and --new-time (the Unix epoch when not given: a
@@ -58,21 +61,6 @@ func (m *matchFlags) options(name func(uint32) string) (events.Options, error) {
 		return o, usageError{err}
 	}
 	return o, nil
-}
-
-// addColumnsFlag adds --columns: the SNAP temporal files are "src dst ts",
-// whose third column must not be read as a weight.
-func addColumnsFlag(fs *flag.FlagSet) *string {
-	return fs.String("columns", ingest.ColumnsWeightTime.String(), "edge-list columns: src,dst,w,ts or src,dst,ts (no weight column: every line adds 1)")
-}
-
-func setColumns(o *ingest.LoadOptions, s string) error {
-	c, err := ingest.ParseColumns(s)
-	if err != nil {
-		return usageError{err}
-	}
-	o.Columns = c
-	return nil
 }
 
 // parseTimeFlag reads an RFC 3339 time or Unix milliseconds; "" is 0.
@@ -132,6 +120,18 @@ func (c eventCounts) MarshalJSON() ([]byte, error) {
 	return append(b, '}'), nil
 }
 
+// UnmarshalJSON reads what MarshalJSON writes.
+func (c *eventCounts) UnmarshalJSON(b []byte) error {
+	var m map[string]int
+	if err := json.Unmarshal(b, &m); err != nil {
+		return err
+	}
+	for i, t := range events.Types {
+		c[i] = m[string(t)]
+	}
+	return nil
+}
+
 // graphSide summarises one input of diff.
 type graphSide struct {
 	File        string  `json:"file"`
@@ -169,7 +169,6 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	newTime := fs.String("new-time", "", "time of NEW in the events (RFC 3339 or Unix ms; default the Unix epoch)")
 	asJSON := fs.Bool("json", false, "print the summary on stderr as one JSON object")
 	lo := addInputFlags(fs)
-	cols := addColumnsFlag(fs)
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
@@ -198,9 +197,6 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 		if err != nil {
 			return err
 		}
-		if err := setColumns(&o, *cols); err != nil {
-			return err
-		}
 		if loaded[i], err = loadWithProgress(e, p, o); err != nil {
 			return err
 		}
@@ -215,7 +211,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	old, cur := loaded[0], loaded[1]
 	stop := spinner(e, "optimising")
 	gOld := tracker.NewGraph(old.Dict.Len(), old.Edges)
-	pOld := tracker.Detect(gOld, &topts)
+	pOld := settle(gOld, &topts, tracker.Detect(gOld, &topts))
 	// NEW's ids in the common id space (OLD's, then NEW's own), and the warm
 	// start: each node of NEW starts in its community of OLD.
 	nOld := old.Dict.Len()
@@ -233,7 +229,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 		only = append(only, uint32(i))
 	}
 	gNew := tracker.NewGraph(cur.Dict.Len(), cur.Edges)
-	pNew := tracker.DetectFrom(gNew, &topts, prev)
+	pNew := settle(gNew, &topts, tracker.DetectFrom(gNew, &topts, prev))
 	if err := ctx.Err(); err != nil {
 		stop()
 		return err
@@ -302,6 +298,25 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	fmt.Fprintf(e.stderr, "nodes: %d in both, %d only in NEW, %d only in OLD\n", kept, len(only), nOld-kept)
 	fmt.Fprintf(e.stderr, "%d events: %s\n", sum.Events, sum.ByType.String())
 	return nil
+}
+
+// settleRuns bounds the warm-started passes of settle.
+const settleRuns = 10
+
+// settle runs warm-started passes from p until the partition (ids
+// included) stops changing, at most settleRuns times. A static run is not
+// a fixed point of a warm start (another pass from it can still improve
+// Q), and a diff of a graph against itself must show no change, so both
+// partitions of a diff are settled the same way.
+func settle(g *tracker.Graph, o *tracker.Options, p *tracker.Partition) *tracker.Partition {
+	for range settleRuns {
+		q := tracker.DetectFrom(g, o, p.Membership)
+		if slices.Equal(q.Membership, p.Membership) {
+			return p
+		}
+		p = q
+	}
+	return p
 }
 
 func side(file string, g *tracker.Graph, s *snapshot.Snapshot, minSize int) graphSide {
