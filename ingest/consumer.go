@@ -103,6 +103,13 @@ type ConsumerOptions struct {
 	// batch that holds its events commits; what it adds to b commits with
 	// them. nil drops the changes (benchmarks).
 	Apply func(b *Batch, c *Chunk) error
+	// NextChunk, if set, is called before the first event of a chunk is
+	// folded (the first event after a chunk was handed to Apply, and the
+	// first event after the consumer starts), with that event's time and
+	// the batch and state being built; the tracker then holds every
+	// earlier event. The daemon decides there whether a snapshot is due,
+	// as shoal replay does between chunks.
+	NextChunk func(b *Batch, ts int64, st *State) error
 	// OnCommit is called after every commit, in the consumer's goroutine.
 	OnCommit func(CommitInfo)
 	// OnError receives errors the consumer recovers from (a lost
@@ -214,6 +221,7 @@ type Consumer struct {
 	bRejects int
 	bDups    int
 	bMsgs    int
+	boundary bool // the next event is the first of a chunk
 
 	sub *subscription
 
@@ -234,16 +242,17 @@ func NewConsumer(js jetstream.JetStream, s *Store, feed *Feed, present []bool, o
 		return nil, err
 	}
 	c := &Consumer{
-		o:       oo,
-		js:      js,
-		store:   s,
-		feed:    feed,
-		st:      s.State(),
-		batch:   s.NewBatch(),
-		dirty:   make(map[uint64]struct{}),
-		present: append([]bool(nil), present...),
-		written: feed.Dict().Len(),
-		window:  s.Meta().Window > 0,
+		o:        oo,
+		js:       js,
+		store:    s,
+		feed:     feed,
+		st:       s.State(),
+		batch:    s.NewBatch(),
+		dirty:    make(map[uint64]struct{}),
+		present:  append([]bool(nil), present...),
+		written:  feed.Dict().Len(),
+		window:   s.Meta().Window > 0,
+		boundary: true,
 	}
 	c.mu.stats.State = c.st
 	feed.Window().SetObserver(c.observe)
@@ -564,6 +573,14 @@ func (c *Consumer) apply(seq uint64, arrival int64, data []byte) error {
 		if p := c.o.Pseudonymizer; p != nil {
 			p.Apply(ev)
 		}
+		if c.boundary {
+			c.boundary = false
+			if c.o.NextChunk != nil {
+				if err := c.o.NextChunk(c.batch, c.feed.EventTime(ev, arrival), &c.st); err != nil {
+					return fmt.Errorf("ingest: before the chunk starting at seq %d: %w", seq, err)
+				}
+			}
+		}
 		n0 := len(c.changes)
 		c.changes = c.feed.Append(c.changes, ev, arrival)
 		c.trackPresence(c.changes[n0:])
@@ -641,6 +658,7 @@ func (c *Consumer) chunk(reason ChunkReason, seq uint64) error {
 	}
 	c.changes = c.changes[:0]
 	c.chunkSeq = 0
+	c.boundary = true
 	c.setPending(0)
 	return nil
 }

@@ -46,18 +46,24 @@ func (f *Feed) Window() *Window { return f.win }
 // Watermark returns the largest event time seen, math.MinInt64 if none.
 func (f *Feed) Watermark() int64 { return f.win.Watermark() }
 
-// Append applies ev and appends its tracker changes to dst (see
-// [Window.AppendChanges] for the changes and their order). An event
-// without a time takes arrival, or the watermark when arrival is
-// NoArrival. ev must be valid (decoded events are).
-func (f *Feed) Append(dst []tracker.Change, ev *Event, arrival int64) []tracker.Change {
-	ts := ev.TS
-	if !ev.HasTS {
-		ts = arrival
-		if ts == NoArrival {
-			ts = f.win.Watermark()
-		}
+// EventTime returns the time an event counts at: its own, or arrival, or
+// the watermark when arrival is NoArrival.
+func (f *Feed) EventTime(ev *Event, arrival int64) int64 {
+	switch {
+	case ev.HasTS:
+		return ev.TS
+	case arrival != NoArrival:
+		return arrival
 	}
+	return f.win.Watermark()
+}
+
+// Append applies ev and appends its tracker changes to dst (see
+// [Window.AppendChanges] for the changes and their order; an event that
+// names an unknown id gets [Window.AppendExpire]). The event counts at
+// EventTime(ev, arrival). ev must be valid (decoded events are).
+func (f *Feed) Append(dst []tracker.Change, ev *Event, arrival int64) []tracker.Change {
+	ts := f.EventTime(ev, arrival)
 	var u, v uint32
 	known := true
 	switch {
@@ -72,14 +78,7 @@ func (f *Feed) Append(dst []tracker.Change, ev *Event, arrival int64) []tracker.
 		known = ok1 && ok2
 	}
 	if !known {
-		f.win.Expire(ts, func(a, b uint32, w float64, gone bool) {
-			if gone {
-				dst = append(dst, tracker.Change{Op: tracker.OpDelete, U: a, V: b})
-			} else {
-				dst = append(dst, tracker.Change{Op: tracker.OpAdd, U: a, V: b, W: -w})
-			}
-		})
-		return dst
+		return f.win.AppendExpire(dst, ts)
 	}
 	return f.win.AppendChanges(dst, ev.Op, ts, u, v, ev.W, ev.HasW)
 }

@@ -32,9 +32,11 @@ func TestFeedIDRules(t *testing.T) {
 	}
 	// An event without a time takes the arrival time: one hour after the
 	// add, the add's increment expires even though the event names
-	// unknown nodes.
+	// unknown nodes, and both ends, left without an edge, leave the graph
+	// (window.go, AppendChanges step 3).
 	chs = f.Append(chs, &Event{Op: OpRemove, Src: "x", Dst: "y"}, h)
-	if len(chs) != 1 || chs[0] != (tracker.Change{Op: tracker.OpDelete, U: 0, V: 1}) || f.Watermark() != h {
+	want := []tracker.Change{{Op: tracker.OpDelete, U: 0, V: 1}, {Op: tracker.OpRemoveNode, U: 0}, {Op: tracker.OpRemoveNode, U: 1}}
+	if len(chs) != 3 || chs[0] != want[0] || chs[1] != want[1] || chs[2] != want[2] || f.Watermark() != h {
 		t.Fatalf("expiry through an unknown-id event: %v, watermark %d", chs, f.Watermark())
 	}
 	// Without an arrival time an event takes the watermark.

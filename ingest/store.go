@@ -153,12 +153,18 @@ type State struct {
 	// the batch was written, so that ids are not handed out twice across a
 	// restart.
 	NextCommunity uint64
-	// SnapshotEvents is EventsApplied at the last snapshot (the count rule
-	// of the snapshot trigger resumes from it).
+	// SnapshotEvents and SnapshotMark are the event count and the
+	// event-time mark at which the snapshot trigger was last marked (the
+	// daemon's trigger resumes from them after a restart); SnapshotMark is
+	// math.MinInt64 before the first mark.
 	SnapshotEvents uint64
+	SnapshotMark   int64
 }
 
 const stateVersion = 1
+
+// NewState returns the state of an empty store.
+func NewState() State { return State{Watermark: math.MinInt64, SnapshotMark: math.MinInt64} }
 
 func (s *State) encode(dst []byte) []byte {
 	dst = append(dst, stateVersion)
@@ -168,7 +174,8 @@ func (s *State) encode(dst []byte) []byte {
 	dst = binary.AppendUvarint(dst, s.EventsRejected)
 	dst = binary.AppendUvarint(dst, s.Messages)
 	dst = binary.AppendUvarint(dst, s.NextCommunity)
-	return binary.AppendUvarint(dst, s.SnapshotEvents)
+	dst = binary.AppendUvarint(dst, s.SnapshotEvents)
+	return binary.AppendVarint(dst, s.SnapshotMark)
 }
 
 func decodeState(b []byte) (State, error) {
@@ -177,21 +184,37 @@ func decodeState(b []byte) (State, error) {
 		return s, fmt.Errorf("%w: state record version", ErrStoreCorrupt)
 	}
 	b = b[1:]
-	fields := []*uint64{&s.Applied, nil, &s.EventsApplied, &s.EventsRejected, &s.Messages, &s.NextCommunity, &s.SnapshotEvents}
-	for _, f := range fields {
-		var n int
-		if f == nil {
-			s.Watermark, n = binary.Varint(b)
-		} else {
-			*f, n = binary.Uvarint(b)
+	ok := true
+	u := func(dst *uint64) {
+		n := 0
+		if ok {
+			*dst, n = binary.Uvarint(b)
 		}
-		if n <= 0 {
-			return s, fmt.Errorf("%w: state record truncated", ErrStoreCorrupt)
+		ok = ok && n > 0
+		if ok {
+			b = b[n:]
 		}
-		b = b[n:]
 	}
-	if len(b) != 0 {
-		return s, fmt.Errorf("%w: state record has %d trailing bytes", ErrStoreCorrupt, len(b))
+	i := func(dst *int64) {
+		n := 0
+		if ok {
+			*dst, n = binary.Varint(b)
+		}
+		ok = ok && n > 0
+		if ok {
+			b = b[n:]
+		}
+	}
+	u(&s.Applied)
+	i(&s.Watermark)
+	u(&s.EventsApplied)
+	u(&s.EventsRejected)
+	u(&s.Messages)
+	u(&s.NextCommunity)
+	u(&s.SnapshotEvents)
+	i(&s.SnapshotMark)
+	if !ok || len(b) != 0 {
+		return s, fmt.Errorf("%w: state record truncated or too long", ErrStoreCorrupt)
 	}
 	return s, nil
 }
@@ -266,7 +289,7 @@ func OpenStore(dir string, o *StoreOptions) (*Store, error) {
 	}
 	if !exists {
 		s.meta = Meta{Format: StoreFormat, Graph: o.Graph, Window: o.Window, KeyID: o.KeyID}
-		s.state = State{Watermark: math.MinInt64}
+		s.state = NewState()
 		if err := s.writeMeta(); err != nil {
 			db.Close()
 			return nil, err
@@ -425,7 +448,7 @@ func readState(r pebble.Reader) (State, error) {
 		return State{}, err
 	}
 	if !ok {
-		return State{Watermark: math.MinInt64}, nil
+		return NewState(), nil
 	}
 	return decodeState(v)
 }

@@ -47,7 +47,7 @@ func TestStoreRoundTrip(t *testing.T) {
 	if err := b.PutEdge(0, 2, 0); err != nil { // deleted again in the same batch
 		t.Fatal(err)
 	}
-	st := State{Applied: 17, Watermark: -5, EventsApplied: 40, EventsRejected: 3, Messages: 20, NextCommunity: 9, SnapshotEvents: 30}
+	st := State{Applied: 17, Watermark: -5, EventsApplied: 40, EventsRejected: 3, Messages: 20, NextCommunity: 9, SnapshotEvents: 30, SnapshotMark: -7}
 	if err := b.PutState(&st); err != nil {
 		t.Fatal(err)
 	}
