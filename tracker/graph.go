@@ -37,7 +37,7 @@ const MaxNodes = math.MaxUint32 - 1
 
 // NewGraph returns a graph with n nodes (all present) and the given edges.
 // Parallel edges are summed. It runs in O(n + len(edges)) and leaves every
-// adjacency run sorted by neighbour id. It panics on an endpoint >= n or a
+// adjacency run sorted by neighbour id, with room for d/8 + 2 more entries. It panics on an endpoint >= n or a
 // weight that is not finite and positive: callers validate input first.
 func NewGraph(n int, edges []Edge) *Graph {
 	if n < 0 || n > MaxNodes {
@@ -70,6 +70,13 @@ func NewGraph(n int, edges []Edge) *Graph {
 		cnt[e.U+1]++
 		cnt[e.V+1]++
 	}
+	// Final runs get headroom (d/8 + 2 entries) so that the first changes
+	// to a node do not move its run; fin holds their offsets.
+	fin := make([]uint32, n+1)
+	for i := 0; i < n; i++ {
+		d := cnt[i+1]
+		fin[i+1] = fin[i] + d + d/8 + 2
+	}
 	for i := 1; i <= n; i++ {
 		cnt[i] += cnt[i-1]
 	}
@@ -93,9 +100,9 @@ func NewGraph(n int, edges []Edge) *Graph {
 	// Pass 2: re-bucket by target, scanning sources in order, so every run
 	// comes out sorted by neighbour; the graph is symmetric so this is the
 	// same edge set.
-	copy(pos, cnt[:n])
-	g.nbr = make([]uint32, total)
-	g.wt = make([]float64, total)
+	copy(pos, fin[:n])
+	g.nbr = make([]uint32, fin[n])
+	g.wt = make([]float64, fin[n])
 	for s := 0; s < n; s++ {
 		for p := cnt[s]; p < cnt[s+1]; p++ {
 			t := tmpN[p]
@@ -105,9 +112,9 @@ func NewGraph(n int, edges []Edge) *Graph {
 		}
 	}
 	tmpN, tmpW = nil, nil
-	// Pass 3: merge parallel entries in place, leaving gaps as capacity.
+	// Pass 3: merge parallel entries in place.
 	for i := 0; i < n; i++ {
-		lo, hi := cnt[i], cnt[i+1]
+		lo, hi := fin[i], fin[i]+(cnt[i+1]-cnt[i])
 		out := lo
 		for p := lo; p < hi; p++ {
 			if out > lo && g.nbr[out-1] == g.nbr[p] {
@@ -117,7 +124,7 @@ func NewGraph(n int, edges []Edge) *Graph {
 			g.nbr[out], g.wt[out] = g.nbr[p], g.wt[p]
 			out++
 		}
-		g.start[i], g.deg[i], g.capa[i] = lo, out-lo, hi-lo
+		g.start[i], g.deg[i], g.capa[i] = lo, out-lo, fin[i+1]-lo
 		g.live += int(out - lo)
 		kk := 2 * g.self[i]
 		for p := lo; p < out; p++ {

@@ -61,6 +61,7 @@ type search struct {
 	read   int
 	parent int // union-find
 	active int // at a root: searches of the set with a non-empty queue
+	round  int // at a root: the last round the set expanded a node
 	done   bool
 	tot    float64
 	in     float64
@@ -80,22 +81,29 @@ func (t *Tracker) checkSlot(c uint32, seeds []uint32) {
 	g := t.g
 	k := uint32(len(seeds))
 	base := t.nextStamp(len(seeds))
-	ss := make([]search, len(seeds))
-	live := make([]int, 0, len(seeds)) // searches with a non-empty queue
+	// Reuse the search states and their node lists across checks.
+	for len(t.ssBuf) < len(seeds) {
+		t.ssBuf = append(t.ssBuf, search{})
+	}
+	ss := t.ssBuf[:len(seeds)]
+	live := t.liveBuf[:0] // searches with a non-empty queue
 	for a, u := range seeds {
-		ss[a] = search{nodes: []uint32{u}, parent: a, active: 1}
+		ss[a] = search{nodes: append(ss[a].nodes[:0], u), parent: a, active: 1}
 		t.stamp[u] = base + uint32(a)
 		live = append(live, a)
 	}
+	defer func() { t.liveBuf = live[:0] }()
 	open := len(seeds) // sets neither joined away nor complete
-	for open > 1 && len(live) > 0 {
+	// Each round expands one node per set, not per search: once most seeds
+	// have met, the joined set must not outpace the ones still apart.
+	for round := 1; open > 1 && len(live) > 0; round++ {
 		out := live[:0]
 		for _, a := range live {
 			s := &ss[a]
-			if open > 1 {
+			if r := find(ss, a); open > 1 && ss[r].round != round {
+				ss[r].round = round
 				x := s.nodes[s.read]
 				s.read++
-				r := find(ss, a)
 				ss[r].tot += g.k[x]
 				ss[r].in += 2 * g.self[x]
 				st, d := g.start[x], g.deg[x]

@@ -88,6 +88,8 @@ type Tracker struct {
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
 	local    []uint32 // node -> index in the frontier subgraph
+	ssBuf    []search // checkSlot scratch
+	liveBuf  []int
 	stampGen uint32
 	res      Result
 }
@@ -188,6 +190,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 	t.id = ids
 	t.free = t.free[:0]
 	t.hotMark = make([]bool, c)
+	t.s.grow(max(n, c) + 1)
 	for len(t.mark) < n {
 		t.mark = append(t.mark, false)
 		t.stamp = append(t.stamp, 0)
