@@ -5,7 +5,9 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"slices"
+	"strconv"
 	"strings"
 	"time"
 
@@ -27,6 +29,38 @@ type detectResult struct {
 	Levels      int         `json:"levels"`
 	Runs        []detectRun `json:"runs,omitempty"`
 	Stability   *stability  `json:"stability,omitempty"`
+	Null        *nullResult `json:"null,omitempty"`
+	Scan        []scanPoint `json:"scan,omitempty"`
+	// StableResolution is the scanned gamma nearest 1 whose runs agree
+	// (mean pairwise NMI >= 0.9, chosen threshold); absent if none.
+	StableResolution *float64 `json:"stable_resolution,omitempty"`
+}
+
+// nullResult compares the observed Q with the Q the same optimiser finds
+// on degree-preserving rewirings (the configuration model).
+type nullResult struct {
+	Runs        int               `json:"runs"`
+	Mean        float64           `json:"mean"`
+	Std         float64           `json:"std"`
+	Z           float64           `json:"z"`
+	Communities []communitySignif `json:"communities"`
+}
+
+// communitySignif is a community's internal weight against the
+// configuration model's expectation tot^2 / 4m.
+type communitySignif struct {
+	Community uint64  `json:"community"`
+	Size      int     `json:"size"`
+	Internal  float64 `json:"internal"`
+	Expected  float64 `json:"expected"`
+	Ratio     float64 `json:"ratio"`
+}
+
+type scanPoint struct {
+	Resolution  float64 `json:"resolution"`
+	Modularity  float64 `json:"modularity"`
+	Communities int     `json:"communities"`
+	MeanNMI     float64 `json:"mean_nmi"`
 }
 
 type detectRun struct {
@@ -53,6 +87,8 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 	runs := fs.Int("runs", 1, "run with seeds seed..seed+K-1, keep the best by modularity and report all K")
 	out := fs.String("out", "", "write node<TAB>community lines (external ids) to this file")
 	asJSON := fs.Bool("json", false, "print one JSON object instead of the summary")
+	nullK := fs.Int("null", 0, "compare Q with K degree-preserving rewirings of the graph (z-score, per-community expected weight)")
+	scan := fs.String("scan", "", "scan the resolution over A:B:STEP (each point: --runs seeds, at least 5)")
 	lo := addInputFlags(fs)
 	pos, err := parse(fs, args)
 	if err != nil {
@@ -67,6 +103,15 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 	opts := tracker.Options{Resolution: *resolution, Seed: *seed}
 	if err := opts.Validate(); err != nil {
 		return usageError{err}
+	}
+	if *nullK < 0 {
+		return usagef("--null %d: must be >= 0", *nullK)
+	}
+	var gammas []float64
+	if *scan != "" {
+		if gammas, err = parseScan(*scan); err != nil {
+			return usageError{err}
+		}
 	}
 	loadOpts, err := lo.options(pos[0])
 	if err != nil {
@@ -108,6 +153,51 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 	slices.SortFunc(res.Sizes, func(a, b int) int { return b - a })
 	if *runs > 1 {
 		res.Runs, res.Stability = summarise(parts, *seed)
+	}
+	if *nullK > 0 {
+		stop := spinner(e, fmt.Sprintf("optimising %d rewired graphs", *nullK))
+		o := opts
+		o.Seed = res.Seed
+		sig := tracker.Null(g, &o, p.Modularity, *nullK)
+		stop()
+		nr := &nullResult{Runs: *nullK, Mean: sig.NullMean, Std: sig.NullStd, Z: sig.Z}
+		for _, c := range p.Communities {
+			exp := tracker.ExpectedInternal(c.Degree, g.TotalWeight())
+			cs := communitySignif{Community: c.ID, Size: c.Size, Internal: c.Internal, Expected: exp}
+			if exp > 0 {
+				cs.Ratio = c.Internal / exp
+			}
+			nr.Communities = append(nr.Communities, cs)
+		}
+		res.Null = nr
+	}
+	if len(gammas) > 0 {
+		k := max(*runs, 5)
+		stop := spinner(e, fmt.Sprintf("scanning %d resolutions, %d seeds each", len(gammas), k))
+		for _, gm := range gammas {
+			if err := ctx.Err(); err != nil {
+				stop()
+				return err
+			}
+			var ps []*tracker.Partition
+			best := 0
+			for r := 0; r < k; r++ {
+				p := tracker.Detect(g, &tracker.Options{Resolution: gm, Seed: *seed + uint64(r)})
+				ps = append(ps, p)
+				if p.Modularity > ps[best].Modularity {
+					best = r
+				}
+			}
+			_, st := summarise(ps, *seed)
+			res.Scan = append(res.Scan, scanPoint{Resolution: gm, Modularity: ps[best].Modularity, Communities: len(ps[best].Communities), MeanNMI: st.MeanNMI})
+		}
+		stop()
+		for _, sp := range res.Scan {
+			if sp.MeanNMI >= 0.9 && (res.StableResolution == nil || math.Abs(sp.Resolution-1) < math.Abs(*res.StableResolution-1)) {
+				v := sp.Resolution
+				res.StableResolution = &v
+			}
+		}
 	}
 	if *out != "" {
 		if err := writeFileAtomic(*out, func(w io.Writer) error {
@@ -178,9 +268,51 @@ func printDetect(w io.Writer, r *detectResult) {
 		fmt.Fprintf(w, "over %d seeds: modularity %.6f..%.6f, %d..%d communities, mean pairwise NMI %.4f, ARI %.4f\n",
 			len(r.Runs), st.QMin, st.QMax, st.CommunitiesMin, st.CommunitiesMax, st.MeanNMI, st.MeanARI)
 	}
+	if n := r.Null; n != nil {
+		fmt.Fprintf(w, "against %d degree-preserving rewirings: null Q %.4f +- %.4f, z = %.1f\n", n.Runs, n.Mean, n.Std, n.Z)
+	}
+	if len(r.Scan) > 0 {
+		fmt.Fprintln(w, "resolution  modularity  communities  mean NMI over seeds")
+		for _, sp := range r.Scan {
+			fmt.Fprintf(w, "%10.3f  %10.6f  %11d  %8.4f\n", sp.Resolution, sp.Modularity, sp.Communities, sp.MeanNMI)
+		}
+		if r.StableResolution != nil {
+			fmt.Fprintf(w, "stable resolution nearest 1: %g\n", *r.StableResolution)
+		} else {
+			fmt.Fprintln(w, "no scanned resolution gives stable results (mean NMI >= 0.9)")
+		}
+	}
 	if r.Modularity < 0.3 {
 		fmt.Fprintln(w, "modularity below 0.3: weak structure (common reading of Q, not a test)")
 	}
+}
+
+// parseScan reads A:B:STEP into the resolutions A, A+STEP, ... <= B.
+func parseScan(s string) ([]float64, error) {
+	f := strings.Split(s, ":")
+	if len(f) != 3 {
+		return nil, fmt.Errorf("--scan %q: want A:B:STEP", s)
+	}
+	var v [3]float64
+	for i, x := range f {
+		n, err := strconv.ParseFloat(x, 64)
+		if err != nil || !(n > 0) || math.IsInf(n, 0) {
+			return nil, fmt.Errorf("--scan %q: %q is not a positive number", s, x)
+		}
+		v[i] = n
+	}
+	if v[1] < v[0] {
+		return nil, fmt.Errorf("--scan %q: B below A", s)
+	}
+	steps := int(math.Floor((v[1]-v[0])/v[2]+1e-9)) + 1
+	if steps > 1000 {
+		return nil, fmt.Errorf("--scan %q: %d points, at most 1000", s, steps)
+	}
+	out := make([]float64, steps)
+	for i := range out {
+		out[i] = v[0] + float64(i)*v[2]
+	}
+	return out, nil
 }
 
 // writeMembership writes node<TAB>community lines in node-id order.
