@@ -1,6 +1,7 @@
 package ingest
 
 import (
+	"cmp"
 	"errors"
 	"fmt"
 	"math"
@@ -93,14 +94,16 @@ const noIdx = ^uint32(0)
 //
 // # Cost
 //
-// Increments sit in flat per-slot slices, with a hand-written binary
-// min-heap on (expiry, Seq) for expiry and a doubly linked list per edge
-// kept in (expiry, Seq) order; edges are found through an open-addressing
-// table and linked into a list per node. Add, a partial Subtract and an
-// expiry cost O(log n) for n live increments (appends at the tail of an
-// edge's list are O(1) when times come in order); Remove and RemoveNode are
-// O(k log n) for the k increments dropped. About 50 bytes per live
-// increment and 40 per live edge.
+// Increments and edges sit in flat slices of small records (one cache line
+// per access), with a hand-written binary min-heap of (expiry, Seq, slot)
+// items for expiry and a doubly linked list per edge kept in (expiry, Seq)
+// order; edges are found through an open-addressing table and linked into
+// a list per node. A dropped increment leaves its heap item behind, to be
+// discarded when it comes to the top (within one span). Add and an expiry
+// cost O(log n) for n heap items (appends at the tail of an edge's list are
+// O(1) when times come in order); Remove, Subtract and RemoveNode O(k) for
+// the k increments they touch. About 65 bytes per live increment and 70 per
+// live edge.
 //
 // A Window is not safe for concurrent use.
 type Window struct {
@@ -109,30 +112,50 @@ type Window struct {
 	seq  uint64 // last Seq handed out
 	obs  func(Increment)
 
-	// Increment slots. A free slot has edge[s] == noIdx.
-	exp          []int64
-	w            []float64
-	sq           []uint64
-	edge         []uint32
-	inext, iprev []uint32 // list of the edge's increments, (expiry, Seq) order
-	hpos         []int32  // position in heap; -1 if not there
-	ifree        []uint32
-	live         int
+	incs  []incRec // increment slots; a free slot has edge == noIdx
+	ifree []uint32
+	live  int
+	heap  []heapItem // min-heap on (exp, seq); stale items are skipped
 
-	heap []uint32 // slots, min-heap on (exp, sq)
-
-	// Edges. A free edge has ehead[e] == noIdx.
-	eu, ev       []uint32
-	ehead, etail []uint32
-	hnext, hprev []uint32 // half-edges: 2e at eu[e], 2e+1 at ev[e]
-	efree        []uint32
-	edges        int
-	nodeHead     []uint32 // first half-edge of each node
-	isolated     []uint32 // nodes that lost their last edge, while collect
-	collect      bool     // set inside AppendChanges and AppendExpire
+	edgeRecs []edgeRec // a free edge has head == noIdx
+	efree    []uint32
+	edges    int
+	nodeHead []uint32 // first half-edge of each node
+	isolated []uint32 // nodes that lost their last edge, while collect
+	collect  bool     // set inside AppendChanges and AppendExpire
 
 	tab edgeTable
 }
+
+// incRec is one increment slot: everything an operation on it reads sits
+// in one 40-byte record, so a random access costs one cache miss.
+type incRec struct {
+	exp        int64
+	w          float64
+	seq        uint64
+	edge       uint32 // noIdx when the slot is free
+	next, prev uint32 // the edge's increments, in (exp, seq) order
+}
+
+// edgeRec is one edge, u <= v, with its increment list and its two
+// half-edges (2e at u, 2e+1 at v) in the per-node lists.
+type edgeRec struct {
+	u, v, head, tail uint32
+	hnext, hprev     [2]uint32
+}
+
+// heapItem carries its own key, so sifting touches only the heap. An item
+// is stale when its slot was dropped (and maybe reused: the seq differs);
+// stale items are discarded when they reach the top. Every item expires
+// within one span of its creation, so at most one span's worth of dropped
+// increments lingers.
+type heapItem struct {
+	exp  int64
+	seq  uint64
+	slot uint32
+}
+
+func (a heapItem) less(b heapItem) bool { return a.exp < b.exp || (a.exp == b.exp && a.seq < b.seq) }
 
 // NewWindow returns an empty window of the given span (rounded down to
 // whole milliseconds, but at least 1 ms when positive). A span <= 0 means no
@@ -176,8 +199,8 @@ func (win *Window) Weight(u, v uint32) float64 {
 		return 0
 	}
 	var sum float64
-	for s := win.ehead[e]; s != noIdx; s = win.inext[s] {
-		sum += win.w[s]
+	for s := win.edgeRecs[e].head; s != noIdx; s = win.incs[s].next {
+		sum += win.incs[s].w
 	}
 	return sum
 }
@@ -196,11 +219,12 @@ func (win *Window) Add(ts int64, u, v uint32, w float64) bool {
 	}
 	u, v = order(u, v)
 	e := win.edgeOf(u, v)
-	if win.span == 0 && win.ehead[e] != noIdx {
-		s := win.ehead[e]
-		win.w[s] += w
-		win.report(s)
-		return true
+	if win.span == 0 {
+		if s := win.edgeRecs[e].head; s != noIdx {
+			win.incs[s].w += w
+			win.report(s)
+			return true
+		}
 	}
 	win.seq++
 	win.report(win.newInc(exp, w, win.seq, e))
@@ -226,23 +250,24 @@ func (win *Window) Subtract(u, v uint32, w float64) (consumed float64, gone bool
 		return 0, false
 	}
 	var total float64
-	for s := win.ehead[e]; s != noIdx; s = win.inext[s] {
-		total += win.w[s]
+	for s := win.edgeRecs[e].head; s != noIdx; s = win.incs[s].next {
+		total += win.incs[s].w
 	}
 	if total-w <= residue*total {
 		return win.dropEdge(e), true
 	}
 	rem := w
-	for s := win.ehead[e]; s != noIdx && rem > 0; {
-		next := win.inext[s]
-		if ws := win.w[s]; ws-rem <= residue*ws {
+	for s := win.edgeRecs[e].head; s != noIdx && rem > 0; {
+		in := &win.incs[s]
+		next := in.next
+		if ws := in.w; ws-rem <= residue*ws {
 			rem -= ws
 			consumed += ws
 			if win.drop(s) {
 				return consumed, true
 			}
 		} else {
-			win.w[s] = ws - rem
+			in.w = ws - rem
 			consumed += rem
 			rem = 0
 			win.report(s)
@@ -288,20 +313,36 @@ func (win *Window) Expire(watermark int64, fn func(u, v uint32, w float64, gone 
 		win.wm = watermark
 	}
 	n := 0
-	for len(win.heap) > 0 {
-		s := win.heap[0]
-		if win.exp[s] > win.wm {
-			break
+	for {
+		s, ok := win.popDue()
+		if !ok {
+			return n
 		}
-		e := win.edge[s]
-		u, v, w := win.eu[e], win.ev[e], win.w[s]
+		in := &win.incs[s]
+		er := &win.edgeRecs[in.edge]
+		u, v, w := er.u, er.v, in.w
 		gone := win.drop(s)
 		n++
 		if fn != nil {
 			fn(u, v, w, gone)
 		}
 	}
-	return n
+}
+
+// popDue removes and returns the first live increment with expiry at or
+// before the watermark, discarding stale heap items on the way.
+func (win *Window) popDue() (uint32, bool) {
+	for len(win.heap) > 0 {
+		top := win.heap[0]
+		if top.exp > win.wm {
+			return 0, false
+		}
+		win.heapPop()
+		if in := &win.incs[top.slot]; in.edge != noIdx && in.seq == top.seq {
+			return top.slot, true
+		}
+	}
+	return 0, false
 }
 
 // Restore puts back a persisted increment, as an observer received it
@@ -324,25 +365,17 @@ func (win *Window) Restore(inc Increment) error {
 // order and returns it.
 func (win *Window) Increments(dst []Increment) []Increment {
 	dst = dst[:0]
-	for s, e := range win.edge {
-		if e != noIdx {
-			dst = append(dst, Increment{Expiry: win.exp[s], U: win.eu[e], V: win.ev[e], W: win.w[s], Seq: win.sq[s]})
+	for s := range win.incs {
+		if in := &win.incs[s]; in.edge != noIdx {
+			er := &win.edgeRecs[in.edge]
+			dst = append(dst, Increment{Expiry: in.exp, U: er.u, V: er.v, W: in.w, Seq: in.seq})
 		}
 	}
 	slices.SortFunc(dst, func(a, b Increment) int {
-		if a.Expiry != b.Expiry {
-			if a.Expiry < b.Expiry {
-				return -1
-			}
-			return 1
+		if c := cmp.Compare(a.Expiry, b.Expiry); c != 0 {
+			return c
 		}
-		if a.Seq < b.Seq {
-			return -1
-		}
-		if a.Seq > b.Seq {
-			return 1
-		}
-		return 0
+		return cmp.Compare(a.Seq, b.Seq)
 	})
 	return dst
 }
@@ -416,13 +449,14 @@ func (win *Window) AppendExpire(dst []tracker.Change, ts int64) []tracker.Change
 		win.wm = ts
 	}
 	win.collect = true
-	for len(win.heap) > 0 {
-		s := win.heap[0]
-		if win.exp[s] > win.wm {
+	for {
+		s, ok := win.popDue()
+		if !ok {
 			break
 		}
-		e := win.edge[s]
-		a, b, x := win.eu[e], win.ev[e], win.w[s]
+		in := &win.incs[s]
+		er := &win.edgeRecs[in.edge]
+		a, b, x := er.u, er.v, in.w
 		if win.drop(s) {
 			dst = append(dst, tracker.Change{Op: tracker.OpDelete, U: a, V: b})
 			dst = win.appendIsolated(dst, noIdx)
@@ -455,15 +489,10 @@ func (win *Window) expiry(ts int64) int64 {
 
 func (win *Window) report(s uint32) {
 	if win.obs != nil {
-		e := win.edge[s]
-		win.obs(Increment{Expiry: win.exp[s], U: win.eu[e], V: win.ev[e], W: win.w[s], Seq: win.sq[s]})
+		in := &win.incs[s]
+		er := &win.edgeRecs[in.edge]
+		win.obs(Increment{Expiry: in.exp, U: er.u, V: er.v, W: in.w, Seq: in.seq})
 	}
-}
-
-// less orders increment slots by (expiry, Seq).
-func (win *Window) less(a, b uint32) bool {
-	ea, eb := win.exp[a], win.exp[b]
-	return ea < eb || (ea == eb && win.sq[a] < win.sq[b])
 }
 
 // edgeOf returns the edge (u, v), u <= v, creating it if absent.
@@ -476,17 +505,11 @@ func (win *Window) edgeOf(u, v uint32) uint32 {
 	if n := len(win.efree); n > 0 {
 		e = win.efree[n-1]
 		win.efree = win.efree[:n-1]
-		win.eu[e], win.ev[e] = u, v
 	} else {
-		e = uint32(len(win.eu))
-		win.eu = append(win.eu, u)
-		win.ev = append(win.ev, v)
-		win.ehead = append(win.ehead, noIdx)
-		win.etail = append(win.etail, noIdx)
-		win.hnext = append(win.hnext, noIdx, noIdx)
-		win.hprev = append(win.hprev, noIdx, noIdx)
+		e = uint32(len(win.edgeRecs))
+		win.edgeRecs = append(win.edgeRecs, edgeRec{})
 	}
-	win.ehead[e], win.etail[e] = noIdx, noIdx
+	win.edgeRecs[e] = edgeRec{u: u, v: v, head: noIdx, tail: noIdx}
 	for int(v) >= len(win.nodeHead) {
 		win.nodeHead = append(win.nodeHead, noIdx)
 	}
@@ -497,31 +520,42 @@ func (win *Window) edgeOf(u, v uint32) uint32 {
 	return e
 }
 
+// half returns the next and prev links of half-edge h.
+func (win *Window) half(h uint32) (next, prev *uint32) {
+	er := &win.edgeRecs[h>>1]
+	return &er.hnext[h&1], &er.hprev[h&1]
+}
+
 func (win *Window) linkHalf(h, node uint32) {
 	first := win.nodeHead[node]
-	win.hprev[h], win.hnext[h] = noIdx, first
+	next, prev := win.half(h)
+	*prev, *next = noIdx, first
 	if first != noIdx {
-		win.hprev[first] = h
+		_, fp := win.half(first)
+		*fp = h
 	}
 	win.nodeHead[node] = h
 }
 
 func (win *Window) unlinkHalf(h, node uint32) {
-	p, n := win.hprev[h], win.hnext[h]
+	next, prev := win.half(h)
+	p, n := *prev, *next
 	if p == noIdx {
 		win.nodeHead[node] = n
 	} else {
-		win.hnext[p] = n
+		pn, _ := win.half(p)
+		*pn = n
 	}
 	if n != noIdx {
-		win.hprev[n] = p
+		_, np := win.half(n)
+		*np = p
 	}
 }
 
 // freeEdge releases an edge that has no increment left and notes the
 // endpoints it leaves without an edge.
 func (win *Window) freeEdge(e uint32) {
-	u, v := win.eu[e], win.ev[e]
+	u, v := win.edgeRecs[e].u, win.edgeRecs[e].v
 	win.tab.remove(uint64(u)<<32 | uint64(v))
 	win.unlinkHalf(2*e, u)
 	win.unlinkHalf(2*e+1, v)
@@ -557,8 +591,8 @@ func (win *Window) appendIsolated(dst []tracker.Change, skip uint32) []tracker.C
 func (win *Window) dropEdge(e uint32) float64 {
 	var sum float64
 	for {
-		s := win.ehead[e]
-		sum += win.w[s]
+		s := win.edgeRecs[e].head
+		sum += win.incs[s].w
 		if win.drop(s) {
 			return sum
 		}
@@ -572,148 +606,136 @@ func (win *Window) newInc(exp int64, w float64, seq uint64, e uint32) uint32 {
 	if n := len(win.ifree); n > 0 {
 		s = win.ifree[n-1]
 		win.ifree = win.ifree[:n-1]
-		win.exp[s], win.w[s], win.sq[s], win.edge[s] = exp, w, seq, e
 	} else {
-		s = uint32(len(win.exp))
-		win.exp = append(win.exp, exp)
-		win.w = append(win.w, w)
-		win.sq = append(win.sq, seq)
-		win.edge = append(win.edge, e)
-		win.inext = append(win.inext, noIdx)
-		win.iprev = append(win.iprev, noIdx)
-		win.hpos = append(win.hpos, -1)
+		s = uint32(len(win.incs))
+		win.incs = append(win.incs, incRec{})
 	}
+	in := &win.incs[s]
+	*in = incRec{exp: exp, w: w, seq: seq, edge: e}
 	// Insert after the last increment that sorts before s: O(1) when
 	// times come in order.
-	p := win.etail[e]
-	for p != noIdx && win.less(s, p) {
-		p = win.iprev[p]
+	er := &win.edgeRecs[e]
+	p := er.tail
+	for p != noIdx {
+		q := &win.incs[p]
+		if q.exp < exp || (q.exp == exp && q.seq < seq) {
+			break
+		}
+		p = q.prev
 	}
 	var n uint32
 	if p == noIdx {
-		n = win.ehead[e]
-		win.ehead[e] = s
+		n = er.head
+		er.head = s
 	} else {
-		n = win.inext[p]
-		win.inext[p] = s
+		n = win.incs[p].next
+		win.incs[p].next = s
 	}
-	win.iprev[s], win.inext[s] = p, n
+	in.prev, in.next = p, n
 	if n == noIdx {
-		win.etail[e] = s
+		er.tail = s
 	} else {
-		win.iprev[n] = s
+		win.incs[n].prev = s
 	}
-	win.hpos[s] = -1
 	if win.span != 0 {
-		win.heapPush(s)
+		win.heapPush(heapItem{exp: exp, seq: seq, slot: s})
 	}
 	win.live++
 	return s
 }
 
 // drop removes increment s, reports it gone and frees its edge when it was
-// the last one; it returns whether it was.
+// the last one; it returns whether it was. Its heap item, if any, goes
+// stale.
 func (win *Window) drop(s uint32) bool {
-	e := win.edge[s]
+	in := &win.incs[s]
+	e := in.edge
+	er := &win.edgeRecs[e]
 	if win.obs != nil {
-		win.obs(Increment{Expiry: win.exp[s], U: win.eu[e], V: win.ev[e], Seq: win.sq[s]})
+		win.obs(Increment{Expiry: in.exp, U: er.u, V: er.v, Seq: in.seq})
 	}
-	p, n := win.iprev[s], win.inext[s]
+	p, n := in.prev, in.next
 	if p == noIdx {
-		win.ehead[e] = n
+		er.head = n
 	} else {
-		win.inext[p] = n
+		win.incs[p].next = n
 	}
 	if n == noIdx {
-		win.etail[e] = p
+		er.tail = p
 	} else {
-		win.iprev[n] = p
+		win.incs[n].prev = p
 	}
-	if win.hpos[s] >= 0 {
-		win.heapRemove(s)
-	}
-	win.edge[s] = noIdx
+	in.edge = noIdx
 	win.ifree = append(win.ifree, s)
 	win.live--
-	if win.ehead[e] == noIdx {
+	if er.head == noIdx {
 		win.freeEdge(e)
 		return true
 	}
 	return false
 }
 
-func (win *Window) heapPush(s uint32) {
-	i := len(win.heap)
-	win.heap = append(win.heap, s)
-	win.hpos[s] = int32(i)
-	win.up(i)
-}
-
-func (win *Window) heapRemove(s uint32) {
-	i := int(win.hpos[s])
-	last := len(win.heap) - 1
-	if i != last {
-		win.swap(i, last)
-	}
-	win.heap = win.heap[:last]
-	win.hpos[s] = -1
-	if i != last && !win.down(i) {
-		win.up(i)
-	}
-}
-
-func (win *Window) swap(i, j int) {
-	h := win.heap
-	h[i], h[j] = h[j], h[i]
-	win.hpos[h[i]] = int32(i)
-	win.hpos[h[j]] = int32(j)
-}
-
-func (win *Window) up(i int) {
+func (win *Window) heapPush(it heapItem) {
+	h := append(win.heap, it)
+	i := len(h) - 1
 	for i > 0 {
 		p := (i - 1) / 2
-		if !win.less(win.heap[i], win.heap[p]) {
-			return
+		if !it.less(h[p]) {
+			break
 		}
-		win.swap(i, p)
+		h[i] = h[p]
 		i = p
 	}
+	h[i] = it
+	win.heap = h
 }
 
-// down sifts heap[i] down and reports whether it moved.
-func (win *Window) down(i int) bool {
-	i0, n := i, len(win.heap)
+func (win *Window) heapPop() {
+	h := win.heap
+	last := len(h) - 1
+	it := h[last]
+	h = h[:last]
+	win.heap = h
+	if last == 0 {
+		return
+	}
+	i, n := 0, last
 	for {
 		l := 2*i + 1
 		if l >= n {
 			break
 		}
 		j := l
-		if r := l + 1; r < n && win.less(win.heap[r], win.heap[l]) {
+		if r := l + 1; r < n && h[r].less(h[l]) {
 			j = r
 		}
-		if !win.less(win.heap[j], win.heap[i]) {
+		if !h[j].less(it) {
 			break
 		}
-		win.swap(i, j)
+		h[i] = h[j]
 		i = j
 	}
-	return i > i0
+	h[i] = it
 }
 
 // edgeTable maps an edge key (u<<32 | v) to its edge index: open
-// addressing with linear probing, kept at most 3/4 full, deletion by
-// backward shift (no tombstones).
+// addressing with linear probing over 16-byte slots (key and value side by
+// side, one cache line touched per probe run), kept at most half full (at
+// 3/4 the probe runs of misses and deletions grow about four times as
+// long), deletion by backward shift (no tombstones).
 type edgeTable struct {
-	keys  []uint64
-	vals  []uint32 // edge index + 1; 0 marks an empty slot
+	slots []tableSlot
 	n     int
 	shift uint
 }
 
+type tableSlot struct {
+	key uint64
+	val uint32 // edge index + 1; 0 marks an empty slot
+}
+
 func (t *edgeTable) init() {
-	t.keys = make([]uint64, 16)
-	t.vals = make([]uint32, 16)
+	t.slots = make([]tableSlot, 16)
 	t.shift = 64 - 4
 	t.n = 0
 }
@@ -721,59 +743,59 @@ func (t *edgeTable) init() {
 func (t *edgeTable) home(k uint64) uint64 { return (k * 0x9E3779B97F4A7C15) >> t.shift }
 
 func (t *edgeTable) find(k uint64) uint32 {
-	mask := uint64(len(t.keys) - 1)
+	mask := uint64(len(t.slots) - 1)
 	for i := t.home(k); ; i = (i + 1) & mask {
-		if t.vals[i] == 0 {
+		sl := &t.slots[i]
+		if sl.val == 0 {
 			return noIdx
 		}
-		if t.keys[i] == k {
-			return t.vals[i] - 1
+		if sl.key == k {
+			return sl.val - 1
 		}
 	}
 }
 
 // insert adds k, which must be absent.
 func (t *edgeTable) insert(k uint64, e uint32) {
-	if 4*(t.n+1) > 3*len(t.keys) {
+	if 2*(t.n+1) > len(t.slots) {
 		t.grow()
 	}
-	mask := uint64(len(t.keys) - 1)
+	mask := uint64(len(t.slots) - 1)
 	i := t.home(k)
-	for t.vals[i] != 0 {
+	for t.slots[i].val != 0 {
 		i = (i + 1) & mask
 	}
-	t.keys[i], t.vals[i] = k, e+1
+	t.slots[i] = tableSlot{k, e + 1}
 	t.n++
 }
 
 func (t *edgeTable) grow() {
-	keys, vals := t.keys, t.vals
-	t.keys = make([]uint64, 2*len(keys))
-	t.vals = make([]uint32, 2*len(vals))
+	old := t.slots
+	t.slots = make([]tableSlot, 2*len(old))
 	t.shift--
 	t.n = 0
-	for i, v := range vals {
-		if v != 0 {
-			t.insert(keys[i], v-1)
+	for _, sl := range old {
+		if sl.val != 0 {
+			t.insert(sl.key, sl.val-1)
 		}
 	}
 }
 
 // remove deletes k, which must be present.
 func (t *edgeTable) remove(k uint64) {
-	mask := uint64(len(t.keys) - 1)
+	mask := uint64(len(t.slots) - 1)
 	i := t.home(k)
-	for t.keys[i] != k || t.vals[i] == 0 {
+	for t.slots[i].key != k || t.slots[i].val == 0 {
 		i = (i + 1) & mask
 	}
 	// Backward shift: pull later entries of the probe run into the hole
 	// when their home slot does not lie between the hole and them.
-	for j := (i + 1) & mask; t.vals[j] != 0; j = (j + 1) & mask {
-		if (j-t.home(t.keys[j]))&mask >= (j-i)&mask {
-			t.keys[i], t.vals[i] = t.keys[j], t.vals[j]
+	for j := (i + 1) & mask; t.slots[j].val != 0; j = (j + 1) & mask {
+		if (j-t.home(t.slots[j].key))&mask >= (j-i)&mask {
+			t.slots[i] = t.slots[j]
 			i = j
 		}
 	}
-	t.vals[i] = 0
+	t.slots[i].val = 0
 	t.n--
 }
