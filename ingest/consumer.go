@@ -356,16 +356,26 @@ func (c *Consumer) failpoint(name string) {
 	}
 }
 
+// StreamConfig returns the configuration with which the ingest stream is
+// created when absent (by the consumer, or by shoal publish): file storage,
+// the ingest subject, the limits of o. Call it after EnsureDefaults.
+func (o *ConsumerOptions) StreamConfig() jetstream.StreamConfig {
+	return jetstream.StreamConfig{
+		Name:        o.Stream,
+		Description: "shoal edge events of graph " + o.Graph,
+		Subjects:    []string{o.Subject},
+		Storage:     jetstream.FileStorage,
+		MaxAge:      o.StreamMaxAge,
+		MaxBytes:    orUnlimited(o.StreamMaxBytes),
+		// A producer that sets Nats-Msg-Id (shoal publish --id-prefix) can
+		// retry a failed publish within this window without doubling.
+		Duplicates: 10 * time.Minute,
+	}
+}
+
 // setup creates the ingest stream and the durable consumer if absent.
 func (c *Consumer) setup(ctx context.Context) error {
-	_, err := EnsureStream(ctx, c.js, jetstream.StreamConfig{
-		Name:        c.o.Stream,
-		Description: "shoal edge events of graph " + c.o.Graph,
-		Subjects:    []string{c.o.Subject},
-		Storage:     jetstream.FileStorage,
-		MaxAge:      c.o.StreamMaxAge,
-		MaxBytes:    orUnlimited(c.o.StreamMaxBytes),
-	})
+	_, err := EnsureStream(ctx, c.js, c.o.StreamConfig())
 	if err != nil {
 		return err
 	}
