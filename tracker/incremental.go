@@ -16,11 +16,15 @@ func (t *Tracker) reoptimise() {
 		order[i], order[j] = order[j], order[i]
 	}
 	t.groupPass()
+	// Free slots, ready before local moving so that the slot arrays do not
+	// grow under it: a node better off alone takes one, with a fresh id.
+	t.reserveSlots(min(len(order), 256))
 	l := g.view()
 	t.s.onMove = t.moved
+	t.s.empty = t.takeSlot
 	t.s.visits = 0
 	t.res.Moves += t.s.moveFast(&l, t.comm, t.tot, order)
-	t.s.onMove = nil
+	t.s.onMove, t.s.empty = nil, nil
 	t.res.Visited = t.s.visits
 	for _, u := range t.frontier {
 		t.mark[u] = false

@@ -24,6 +24,10 @@ type solver struct {
 	// when it ended with every community a single node (nil otherwise).
 	in, tot []float64
 
+	// empty, if set, returns an empty community for moveFast (noSlot if
+	// none); the tracker sets it to hand out free slots.
+	empty func() uint32
+
 	// onMove, if set, is called after moveFast moves node i from community
 	// from to community to; wFrom and wTo are k_i,from and k_i,to (self-loop
 	// excluded). The tracker keeps its per-community bookkeeping with it.
@@ -112,6 +116,22 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 	}
 	moves := 0
 	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
+	// Empty communities, the target of a node better off alone (Leiden's
+	// local moving considers the empty community too). The tracker hands
+	// out its free slots through s.empty; here, a stack of the unused ids.
+	var members []uint32
+	var free []uint32
+	if s.empty == nil {
+		members = make([]uint32, len(tot))
+		for _, c := range comm[:n] {
+			members[c]++
+		}
+		for c := len(tot) - 1; c >= 0; c-- {
+			if members[c] == 0 {
+				free = append(free, uint32(c))
+			}
+		}
+	}
 	for size > 0 {
 		i := ring[head]
 		head++
@@ -149,6 +169,19 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		}
 		wsum[ci] = 0
 		touched = touched[:0]
+		if bestGain < -moveTol*ki {
+			// Alone (gain 0) beats every community it could be in.
+			e := noSlot
+			if s.empty != nil {
+				e = s.empty()
+			} else if len(free) > 0 {
+				e = free[len(free)-1]
+				free = free[:len(free)-1]
+			}
+			if e != noSlot {
+				best, bestGain, bestW = e, 0, 0
+			}
+		}
 		if best == ci || bestGain-stay <= moveTol*ki {
 			tot[ci] += ki
 			continue
@@ -156,6 +189,12 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		tot[best] += ki
 		comm[i] = best
 		moves++
+		if members != nil {
+			members[best]++
+			if members[ci]--; members[ci] == 0 {
+				free = append(free, ci)
+			}
+		}
 		if s.onMove != nil {
 			s.onMove(i, ci, best, wFrom, bestW)
 		}

@@ -274,6 +274,38 @@ func (t *Tracker) newSlot() uint32 {
 	return s
 }
 
+// reserveSlots makes sure at least k slots are free, growing the slot
+// arrays now; free slots carry no id.
+func (t *Tracker) reserveSlots(k int) {
+	for len(t.free) < k {
+		s := uint32(len(t.head))
+		t.head = append(t.head, noSlot)
+		t.tot = append(t.tot, 0)
+		t.in = append(t.in, 0)
+		t.size = append(t.size, 0)
+		t.id = append(t.id, NoCommunity)
+		t.hotMark = append(t.hotMark, false)
+		t.free = append(t.free, s)
+	}
+	t.s.grow(len(t.head) + 1)
+}
+
+// takeSlot hands a free slot with a fresh id to local moving, noSlot if
+// none is free.
+func (t *Tracker) takeSlot() uint32 {
+	n := len(t.free)
+	if n == 0 {
+		return noSlot
+	}
+	s := t.free[n-1]
+	t.free = t.free[:n-1]
+	t.head[s], t.tot[s], t.in[s], t.size[s] = noSlot, 0, 0, 0
+	t.id[s] = t.nextID
+	t.nextID++
+	t.heat(s)
+	return s
+}
+
 // release frees an empty slot; its id is retired for good.
 func (t *Tracker) release(s uint32) {
 	t.tot[s], t.in[s] = 0, 0

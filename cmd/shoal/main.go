@@ -36,6 +36,7 @@ var commands = []command{
 	{"publish", "send edge events from a file or stdin to the ingest subject", runPublish},
 	{"export", "print the stored edges, nodes or a snapshot (daemon stopped)", runExport},
 	{"query", "ask a running daemon", runQuery},
+	{"demo", "the whole pipeline on an invented payments scenario", runDemo},
 }
 
 // usageError marks bad usage or bad input: exit code 2.

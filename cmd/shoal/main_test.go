@@ -198,3 +198,25 @@ func TestUsageErrors(t *testing.T) {
 		}
 	}
 }
+
+// TestDemo: the invented scenario's planted changes come out as events:
+// the ring of mule accounts is born, group 12 (which stops paying within
+// itself) dies, and the output carries the caution about communities.
+func TestDemo(t *testing.T) {
+	out, errs, code := runIn(t, "", "demo")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var birth, death bool
+	for _, line := range strings.Split(out, "\n") {
+		if strings.Contains(line, " birth ") && strings.Contains(line, "acct-0250") {
+			birth = true
+		}
+		if strings.Contains(line, " death ") {
+			death = true
+		}
+	}
+	if !birth || !death || !strings.Contains(out, "not evidence") {
+		t.Fatalf("demo output lacks the ring's birth, the group's death or the caution:\n%s", out)
+	}
+}
