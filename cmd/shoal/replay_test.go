@@ -697,3 +697,47 @@ func BenchmarkReplay(b *testing.B) {
 		})
 	}
 }
+
+// TestReplayUntimedEvents: an event without a time takes the watermark at
+// its place in the file, and those before the first timed event take the
+// first time (replay.go, "Reading"). Invented data, with a 1h window so
+// that the time an event gets decides when it expires:
+//
+//	x-y  no time  -> 00:00, expires 01:00
+//	a-b  00:00             expires 01:00
+//	c-d  no time  -> 00:00, expires 01:00
+//	e-f  00:40             expires 01:40
+//	g-h  no time  -> 00:40, expires 01:40
+//	a-b  01:20             expires 02:20
+//
+// Snapshots every 30 minutes, --apply-every 1: before e-f (wm 00:00: x-y,
+// a-b, c-d), before the last a-b (wm 00:40: five edges), and at the end
+// (wm 01:20: x-y, c-d and the first a-b expired; a-b, e-f, g-h left). Had
+// the untimed events been put at the epoch, x-y would never count, and had
+// they been put at the end of time, c-d would not expire.
+func TestReplayUntimedEvents(t *testing.T) {
+	in := `{"src":"x","dst":"y"}
+{"src":"a","dst":"b","ts":"2026-01-01T00:00:00Z"}
+{"src":"c","dst":"d"}
+{"src":"e","dst":"f","ts":"2026-01-01T00:40:00Z"}
+{"src":"g","dst":"h"}
+{"src":"a","dst":"b","ts":"2026-01-01T01:20:00Z"}
+`
+	snaps := filepath.Join(t.TempDir(), "s.jsonl")
+	_, errs, code := runIn(t, in, "replay", "-", "--window", "1h", "--every", "30m", "--apply-every", "1", "--snapshots-out", snaps)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if strings.Contains(errs, "not in time order") {
+		t.Errorf("untimed events made the file look unsorted: %q", errs)
+	}
+	ss := readSnapshots(t, snaps)
+	var got []string
+	for _, s := range ss {
+		got = append(got, fmt.Sprintf("%d@%s:%d edges,%d nodes", s.Seq, s.Watermark[11:16], s.Edges, s.Nodes))
+	}
+	want := []string{"3@00:00:3 edges,6 nodes", "5@00:40:5 edges,10 nodes", "6@01:20:3 edges,6 nodes"}
+	if !slices.Equal(got, want) {
+		t.Fatalf("snapshots %v, want %v", got, want)
+	}
+}
