@@ -4,14 +4,19 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math/rand/v2"
+	"net/http"
 	"os"
 	"path/filepath"
 	"slices"
 	"strings"
 	"time"
+
+	"github.com/nats-io/nats.go"
+	"github.com/nats-io/nats.go/jetstream"
 
 	"shoal/events"
 )
@@ -105,6 +110,9 @@ func demoScenario(w io.Writer) error {
 		slices.SortStableFunc(evs, func(a, b demoEvent) int { return strings.Compare(a.TS, b.TS) })
 		lines = append(lines, evs...)
 	}
+	// One payment just after the last day, so that the last day closes with
+	// a snapshot.
+	lines = append(lines, demoEvent{Src: acct(0), Dst: acct(1), W: 1, TS: demoStart.Add(demoDays * 24 * time.Hour).Format(time.RFC3339)})
 	for i := range lines {
 		if err := enc.Encode(&lines[i]); err != nil {
 			return err
@@ -115,7 +123,8 @@ func demoScenario(w io.Writer) error {
 
 func runDemo(ctx context.Context, e *env, args []string) error {
 	fs := newFlags(e, "demo", "[options]")
-	keep := fs.String("keep", "", "keep the scenario and the event file in this directory (default: a temporary one, removed)")
+	keep := fs.String("keep", "", "keep the scenario, the data directory and the event file in this directory (default: a temporary one, removed)")
+	viaReplay := fs.Bool("replay", false, "run the scenario through shoal replay instead of the daemon (no NATS)")
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
@@ -139,12 +148,164 @@ func runDemo(ctx context.Context, e *env, args []string) error {
 	evPath := filepath.Join(dir, "events.jsonl")
 	fmt.Fprintln(e.stdout, "shoal demo: an invented payments scenario (1,600 accounts in 40 groups, six days);")
 	fmt.Fprintln(e.stdout, "a ring forms on day 2, two groups trade as one from day 3, one group stops paying within itself on day 4.")
-	fmt.Fprintf(e.stdout, "replaying %s with a snapshot every 24h of event time\n\n", scenario)
-	sub := &env{stdin: e.stdin, stdout: io.Discard, stderr: io.Discard}
-	if err := runReplay(ctx, sub, []string{scenario, "--every", "24h", "--graph", "demo-payments", "--members", "--min-size", "5", "--events-out", evPath}); err != nil {
-		return fmt.Errorf("replay of the scenario: %w", err)
+	if *viaReplay {
+		fmt.Fprintf(e.stdout, "replaying %s with a snapshot every 24h of event time\n\n", scenario)
+		sub := &env{stdin: e.stdin, stdout: io.Discard, stderr: io.Discard}
+		if err := runReplay(ctx, sub, []string{scenario, "--every", "24h", "--graph", "demo-payments", "--members", "--min-size", "5", "--events-out", evPath}); err != nil {
+			return fmt.Errorf("replay of the scenario: %w", err)
+		}
+	} else {
+		fmt.Fprintf(e.stdout, "starting the daemon with an embedded NATS server (data in %s), publishing %s,\n", filepath.Join(dir, "data"), scenario)
+		fmt.Fprintln(e.stdout, "snapshot every 24h of event time, events from the JetStream events stream:")
+		fmt.Fprintln(e.stdout)
+		if err := demoDaemon(ctx, e, dir, scenario, evPath); err != nil {
+			return err
+		}
 	}
 	return printDemoEvents(e.stdout, evPath)
+}
+
+// demoDaemon runs `shoal run` in process on an embedded server, publishes
+// the scenario with `shoal publish`, waits until every event is applied and
+// the events stream is quiet, and copies the events to evPath.
+func demoDaemon(ctx context.Context, e *env, dir, scenario, evPath string) error {
+	lines := 0
+	if data, err := os.ReadFile(scenario); err == nil {
+		lines = strings.Count(string(data), "\n")
+	}
+	logf, err := os.Create(filepath.Join(dir, "daemon.log"))
+	if err != nil {
+		return err
+	}
+	defer logf.Close()
+	dctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	ready := filepath.Join(dir, "ready.json")
+	done := make(chan error, 1)
+	go func() {
+		done <- runRun(dctx, &env{stdout: io.Discard, stderr: logf}, []string{
+			"--data", filepath.Join(dir, "data"), "--graph", "demo", "--nats-listen", "127.0.0.1:0", "--http", "127.0.0.1:0",
+			"--snapshot-every", "24h", "--min-size", "5", "--members", "--ready-file", ready, "--log-level", "warn"})
+	}()
+	stop := func() error {
+		cancel()
+		return <-done
+	}
+	var info struct {
+		HTTP string `json:"http"`
+		NATS string `json:"nats"`
+	}
+	deadline := time.Now().Add(60 * time.Second)
+	for {
+		if data, err := os.ReadFile(ready); err == nil && json.Unmarshal(data, &info) == nil && info.NATS != "" {
+			break
+		}
+		select {
+		case err := <-done:
+			return fmt.Errorf("daemon stopped before it was ready: %v (see %s)", err, logf.Name())
+		case <-time.After(50 * time.Millisecond):
+		}
+		if time.Now().After(deadline) {
+			stop()
+			return fmt.Errorf("daemon not ready after 60s (see %s)", logf.Name())
+		}
+	}
+	sub := &env{stdin: e.stdin, stdout: io.Discard, stderr: io.Discard}
+	if err := runPublish(ctx, sub, []string{scenario, "--nats", info.NATS, "--graph", "demo", "--lines-per-message", "100"}); err != nil {
+		stop()
+		return fmt.Errorf("publish the scenario: %w", err)
+	}
+	nc, err := nats.Connect(info.NATS)
+	if err != nil {
+		stop()
+		return err
+	}
+	defer nc.Close()
+	js, err := jetstream.New(nc)
+	if err != nil {
+		stop()
+		return err
+	}
+	// Wait for every line to be applied, then for the events stream to be
+	// quiet for a second (the outbox publishes after each snapshot).
+	var last uint64
+	quietSince := time.Time{}
+	deadline = time.Now().Add(120 * time.Second)
+	for {
+		if time.Now().After(deadline) {
+			stop()
+			return fmt.Errorf("the daemon did not finish the scenario in 120s (see %s)", logf.Name())
+		}
+		time.Sleep(100 * time.Millisecond)
+		st, err := demoStats(info.HTTP)
+		if err != nil || int(st.EventsApplied+st.EventsRejected) < lines || st.PendingChanges > 0 {
+			continue
+		}
+		si, err := js.Stream(ctx, "SHOAL_EVENTS_demo")
+		if err != nil {
+			continue
+		}
+		inf, err := si.Info(ctx)
+		if err != nil {
+			continue
+		}
+		if inf.State.Msgs != last || quietSince.IsZero() {
+			last, quietSince = inf.State.Msgs, time.Now()
+			continue
+		}
+		if time.Since(quietSince) > time.Second {
+			break
+		}
+	}
+	cons, err := js.OrderedConsumer(ctx, "SHOAL_EVENTS_demo", jetstream.OrderedConsumerConfig{})
+	if err != nil {
+		stop()
+		return err
+	}
+	out, err := os.Create(evPath)
+	if err != nil {
+		stop()
+		return err
+	}
+	for got := uint64(0); got < last; {
+		batch, err := cons.Fetch(int(min(last-got, 500)), jetstream.FetchMaxWait(2*time.Second))
+		if err != nil {
+			out.Close()
+			stop()
+			return err
+		}
+		n := 0
+		for m := range batch.Messages() {
+			out.Write(m.Data())
+			out.Write([]byte("\n"))
+			n++
+		}
+		if n == 0 {
+			break
+		}
+		got += uint64(n)
+	}
+	if err := out.Close(); err != nil {
+		stop()
+		return err
+	}
+	if err := stop(); err != nil && !errors.Is(err, context.Canceled) {
+		return fmt.Errorf("daemon: %w (see %s)", err, logf.Name())
+	}
+	return nil
+}
+
+func demoStats(addr string) (*statsResponse, error) {
+	resp, err := http.Get("http://" + addr + "/v1/stats")
+	if err != nil {
+		return nil, err
+	}
+	defer resp.Body.Close()
+	var st statsResponse
+	if err := json.NewDecoder(resp.Body).Decode(&st); err != nil {
+		return nil, err
+	}
+	return &st, nil
 }
 
 // printDemoEvents prints one readable line per event other than continue.
