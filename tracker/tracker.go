@@ -453,17 +453,18 @@ func (t *Tracker) change(c Change) {
 		return
 	}
 	u, v := c.U, c.V
-	if c.Op == OpDelete && (int(u) >= len(t.comm) || int(v) >= len(t.comm) || t.g.Weight(u, v) == 0) {
-		return
+	if c.Op == OpDelete && (!t.g.Has(u) || !t.g.Has(v)) {
+		return // nothing to delete; do not create the nodes
 	}
 	t.touch(u)
 	t.touch(v)
-	var d float64
+	var d, now float64
 	switch c.Op {
 	case OpAdd:
-		_, d = t.g.AddWeight(u, v, c.W)
+		now, d = t.g.AddWeight(u, v, c.W)
 	case OpSet:
 		d = t.g.SetWeight(u, v, c.W)
+		now = c.W
 	case OpDelete:
 		d = t.g.SetWeight(u, v, 0)
 	}
@@ -486,7 +487,7 @@ func (t *Tracker) change(c Change) {
 			t.markNode(u)
 			t.markNode(v)
 			t.heat(cu)
-			if t.g.Weight(u, v) == 0 {
+			if now == 0 {
 				t.seeds = append(t.seeds, seed{cu, u}, seed{cu, v})
 			}
 		}
