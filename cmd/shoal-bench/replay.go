@@ -21,12 +21,15 @@ type replayRow struct {
 	Events  int     `json:"events"`
 	Args    string  `json:"args"`
 	Seconds float64 `json:"seconds"`
+	CPU     float64 `json:"cpu_seconds"`
 	PerS    float64 `json:"events_per_s"`
 }
 
 // runReplay writes a generated stream of edge events and, with --shoal,
 // times `shoal replay` on it in a child process (the whole command: read,
-// sort check, window, tracker, snapshots, events), once per configuration.
+// sort check, window, tracker, snapshots, events), once per configuration:
+// wall seconds, CPU seconds of the child (user + system, less sensitive to
+// other load on a shared machine) and events per wall second.
 //
 //	shoal-bench replay [--events N] [--out FILE] [--shoal PATH] [--json]
 //
@@ -75,9 +78,10 @@ func runReplay(ctx context.Context, args []string, w io.Writer) error {
 				return fmt.Errorf("%s %s: %v: %s", *shoal, strings.Join(cmdArgs, " "), err, errb.String())
 			}
 			sec := time.Since(start).Seconds()
-			row := replayRow{Format: format, Events: *n, Args: strings.Join(extra, " "), Seconds: sec, PerS: float64(*n) / sec}
-			em.row(row, "format  events    seconds  events/s  flags", func() string {
-				return fmt.Sprintf("%-7s %-9d %7.2f  %8.0f  %s", row.Format, row.Events, row.Seconds, row.PerS, row.Args)
+			cpu := (cmd.ProcessState.UserTime() + cmd.ProcessState.SystemTime()).Seconds()
+			row := replayRow{Format: format, Events: *n, Args: strings.Join(extra, " "), Seconds: sec, CPU: cpu, PerS: float64(*n) / sec}
+			em.row(row, "format  events    seconds  cpu_s  events/s  flags", func() string {
+				return fmt.Sprintf("%-7s %-9d %7.2f  %5.2f  %8.0f  %s", row.Format, row.Events, row.Seconds, row.CPU, row.PerS, row.Args)
 			})
 		}
 	}

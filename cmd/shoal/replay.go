@@ -202,7 +202,7 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if !in.timed && (*every > 0 || *window > 0) {
+	if !in.timed && len(in.evs) > 0 && (*every > 0 || *window > 0) {
 		return usagef("%s: no event has a time, so --every and --window cannot work; use --every-events", lopts.Name)
 	}
 	if !in.sorted {
@@ -541,6 +541,10 @@ func (r *replayer) summarise(asJSON bool) error {
 		return json.NewEncoder(r.e.stderr).Encode(s)
 	}
 	w := r.e.stderr
+	if s.Events == 0 {
+		fmt.Fprintf(w, "%s has no events: no snapshots\n", s.File)
+		return nil
+	}
 	order := "in time order"
 	if !s.Sorted {
 		order = "sorted by time"
@@ -550,10 +554,6 @@ func (r *replayer) summarise(asJSON bool) error {
 		fmt.Fprintf(w, ", window %s", s.Window)
 	}
 	fmt.Fprintln(w)
-	if s.Snapshots == 0 {
-		fmt.Fprintln(w, "no snapshots: the input has no events")
-		return nil
-	}
 	fmt.Fprintf(w, "%d snapshots, modularity %.6f .. %.6f; last: %d nodes, %d edges, %d communities\n",
 		s.Snapshots, s.ModularityMin, s.ModularityMax, s.Nodes, s.Edges, s.Communities)
 	fmt.Fprintf(w, "%d events: %s\n", s.Lifecycle, s.ByType.String())
