@@ -90,9 +90,14 @@ func (d *daemon) handler() http.Handler {
 	})
 	mux.HandleFunc("GET /readyz", func(w http.ResponseWriter, _ *http.Request) {
 		w.Header().Set("Content-Type", "text/plain; charset=utf-8")
-		if !d.ready.Load() || !d.cons.Stats().Consuming {
+		switch {
+		case !d.ready.Load() || !d.cons.Stats().Consuming:
 			w.WriteHeader(http.StatusServiceUnavailable)
-			fmt.Fprintln(w, "not ready: the consumer is not receiving (starting, or the NATS server is unreachable)")
+			fmt.Fprintln(w, "not ready: the consumer is not receiving (starting, or repositioning)")
+			return
+		case !d.nc.IsConnected():
+			w.WriteHeader(http.StatusServiceUnavailable)
+			fmt.Fprintln(w, "not ready: the NATS server is unreachable (reconnecting)")
 			return
 		}
 		fmt.Fprintln(w, "ready")
