@@ -355,6 +355,7 @@ type replayer struct {
 
 	ids   []uint32 // reading id -> dense id, noID if not yet added
 	order []uint32 // dense id -> reading id
+	names []string // dense id -> external id, filled by name
 
 	tr       *tracker.Tracker
 	prev     *snapshot.Snapshot
@@ -363,7 +364,17 @@ type replayer struct {
 	sum      replaySummary
 }
 
-func (r *replayer) name(v uint32) string { return r.in.dict.Name(r.order[v]) }
+// name returns the external id of dense id v. Events name the same nodes
+// snapshot after snapshot, so each name is made once and kept.
+func (r *replayer) name(v uint32) string {
+	for int(v) >= len(r.names) {
+		r.names = append(r.names, "")
+	}
+	if r.names[v] == "" {
+		r.names[v] = r.in.dict.Name(r.order[v])
+	}
+	return r.names[v]
+}
 
 func (r *replayer) dense(f uint32) uint32 {
 	if r.ids[f] == noID {
