@@ -100,26 +100,9 @@ func TestIncrementalTracksStatic(t *testing.T) {
 	}
 }
 
-// groupRecall returns the largest fraction of nodes that share one
-// community, and the fraction of that community made of those nodes.
+// groupRecall is tracker.GroupRecovery on the tracker's partition.
 func groupRecall(tr *tracker.Tracker, nodes []uint32) (recall, precision float64) {
-	count := map[uint64]int{}
-	for _, u := range nodes {
-		count[tr.Community(u)]++
-	}
-	var best uint64
-	for c, k := range count {
-		if k > count[best] || (k == count[best] && c < best) {
-			best = c
-		}
-	}
-	size := 0
-	for _, c := range tr.Communities() {
-		if c.ID == best {
-			size = c.Size
-		}
-	}
-	return float64(count[best]) / float64(len(nodes)), float64(count[best]) / float64(size)
+	return tracker.GroupRecovery(tr.Membership(nil), nodes)
 }
 
 // TestPlantedGroupForms: a dense group planted by one batch, on new nodes

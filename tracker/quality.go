@@ -112,3 +112,30 @@ func ARI[A, B cmp.Ordered](a []A, b []B) float64 {
 	}
 	return (sc - exp) / (max - exp)
 }
+
+// GroupRecovery measures how well a partition holds a known group of nodes
+// (a planted ring, a watch list): recall is the largest share of the group
+// found in one community, precision the share of that community made of
+// the group. Ties go to the smaller community id.
+func GroupRecovery(membership []uint64, group []uint32) (recall, precision float64) {
+	if len(group) == 0 {
+		return 0, 0
+	}
+	count := map[uint64]int{}
+	for _, u := range group {
+		count[membership[u]]++
+	}
+	best, bestN := NoCommunity, 0
+	for c, k := range count {
+		if k > bestN || (k == bestN && c < best) {
+			best, bestN = c, k
+		}
+	}
+	size := 0
+	for _, c := range membership {
+		if c == best {
+			size++
+		}
+	}
+	return float64(bestN) / float64(len(group)), float64(bestN) / float64(size)
+}

@@ -164,26 +164,11 @@ func plantedGroup(gg *gen.Graph) (*incrementalRow, error) {
 	if err != nil {
 		return nil, err
 	}
-	count := map[uint64]int{}
-	for _, u := range nodes {
-		count[tr.Community(u)]++
-	}
-	var best uint64
-	for c, k := range count {
-		if k > count[best] || (k == count[best] && c < best) {
-			best = c
-		}
-	}
-	size := 0
-	for _, c := range tr.Communities() {
-		if c.ID == best {
-			size = c.Size
-		}
-	}
+	recall, precision := tracker.GroupRecovery(tr.Membership(nil), nodes)
 	sd, sp := staticOn(tr)
 	r := &incrementalRow{Graph: "lfr+group", Edges: len(gg.Edges), BatchSize: len(batch), AfterBatches: 1,
 		IncrementalMs: ms(d), P50Ms: ms(d), P99Ms: ms(d), StaticMs: ms(sd), QIncremental: tr.Modularity(), QStatic: sp.Modularity,
-		Frontier: res.Visited, Recall: float64(count[best]) / float64(len(nodes)), Precision: float64(count[best]) / float64(size)}
+		Frontier: res.Visited, Recall: recall, Precision: precision}
 	r.Ratio = r.StaticMs / r.IncrementalMs
 	return r, nil
 }
