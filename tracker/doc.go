@@ -43,7 +43,11 @@
 //  4. runs local moving from the frontier in a seeded order; a node that
 //     moves puts its neighbours outside the target on the frontier;
 //  5. splits every community that may have fallen apart (see split.go);
-//  6. merges, whole, the small communities an added edge joined when that
+//  6. re-optimises from singletons every community that lost a fifth or
+//     more of its internal weight, and splits it when that raises Q: such a
+//     community can stay a local optimum for single moves after it has
+//     stopped being a good one (see resplitPass);
+//  7. merges, whole, the small communities an added edge joined when that
 //     raises Q (the community-level step of Louvain, restricted to what the
 //     batch touched; see mergePass).
 //

@@ -164,3 +164,57 @@ func TestDriftGuard(t *testing.T) {
 		t.Fatal("no full pass over the bound")
 	}
 }
+
+// TestResplitAfterLoss: a community that loses most of its internal weight
+// can stay a local optimum for single-node moves although it is no longer a
+// good community (each member is still better inside than alone). Worked
+// example: two 6-cliques A (0..5) and B (6..11) fully joined form one
+// community K12; deleting all but one of the 36 edges between them leaves
+// two cliques and a bridge. By hand, with 2m = 2 (15+15+1) + 400*2 = 862
+// (the background adds 400 edges), splitting gains
+// [30 - 31^2/862] + [30 - 31^2/862] - [62 - 62^2/862] = 2.23 > 0 (times
+// 1/2m), which the resplit pass finds; the heavier side keeps the id.
+func TestResplitAfterLoss(t *testing.T) {
+	a, b := seq(0, 6), seq(6, 6)
+	e := clique(nil, a, 1)
+	e = clique(e, b, 1)
+	for _, u := range a {
+		for _, v := range b {
+			e = append(e, Edge{U: u, V: v, W: 1})
+		}
+	}
+	e = background(e)
+	tr, err := NewFrom(NewGraph(300, e), &Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	id := tr.Community(0)
+	if tr.Community(6) != id {
+		t.Fatal("K12 does not start as one community")
+	}
+	var batch []Change
+	for _, u := range a {
+		for _, v := range b {
+			if u != 0 || v != 6 {
+				batch = append(batch, Change{Op: OpDelete, U: u, V: v})
+			}
+		}
+	}
+	r, err := tr.Apply(batch)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := tr.Check(); err != nil {
+		t.Fatal(err)
+	}
+	if tr.Community(0) == tr.Community(6) {
+		t.Fatalf("A and B still together after losing 35 of 36 joining edges: %+v", r)
+	}
+	if tr.Community(0) != id && tr.Community(6) != id {
+		t.Fatal("neither part kept the id")
+	}
+	static := Detect(tr.Graph(), &Options{})
+	if tr.Modularity() < static.Modularity-1e-9 {
+		t.Fatalf("Q %.6f below a static run's %.6f", tr.Modularity(), static.Modularity)
+	}
+}

@@ -31,9 +31,12 @@ func (t *Tracker) reoptimise() {
 	}
 	t.frontier = t.frontier[:0]
 	t.runChecks()
+	t.resplitPass()
+	t.runChecks()
 	t.mergePass()
 	for _, s := range t.hot {
 		t.hotMark[s] = false
+		t.lost[s] = 0
 	}
 	t.hot = t.hot[:0]
 }

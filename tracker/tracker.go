@@ -85,6 +85,7 @@ type Tracker struct {
 	seeds    []seed      // connectivity checks pending: (slot, node) pairs
 	joins    [][2]uint32 // endpoints of edges added or made heavier between communities
 	hot      []uint32    // slots touched by the batch
+	lost     []float64   // internal weight each slot lost to the batch's changes
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
 	local    []uint32 // node -> index in the frontier subgraph
@@ -190,6 +191,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 	t.id = ids
 	t.free = t.free[:0]
 	t.hotMark = make([]bool, c)
+	t.lost = make([]float64, c)
 	t.s.grow(max(n, c) + 1)
 	for len(t.mark) < n {
 		t.mark = append(t.mark, false)
@@ -267,8 +269,9 @@ func (t *Tracker) newSlot() uint32 {
 		t.size = append(t.size, 0)
 		t.id = append(t.id, 0)
 		t.hotMark = append(t.hotMark, false)
+		t.lost = append(t.lost, 0)
 	}
-	t.head[s], t.tot[s], t.in[s], t.size[s] = noSlot, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s] = noSlot, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	return s
@@ -285,6 +288,7 @@ func (t *Tracker) reserveSlots(k int) {
 		t.size = append(t.size, 0)
 		t.id = append(t.id, NoCommunity)
 		t.hotMark = append(t.hotMark, false)
+		t.lost = append(t.lost, 0)
 		t.free = append(t.free, s)
 	}
 	t.s.grow(len(t.head) + 1)
@@ -299,7 +303,7 @@ func (t *Tracker) takeSlot() uint32 {
 	}
 	s := t.free[n-1]
 	t.free = t.free[:n-1]
-	t.head[s], t.tot[s], t.in[s], t.size[s] = noSlot, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s] = noSlot, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	t.heat(s)
@@ -383,7 +387,8 @@ func (t *Tracker) Communities() []CommunityStats {
 	var out []CommunityStats
 	for s := range t.head {
 		if t.size[s] > 0 {
-			out = append(out, CommunityStats{ID: t.id[s], Size: int(t.size[s]), Internal: t.in[s] / 2, Degree: t.tot[s]})
+			// NB: kept sums can round a few ulps below zero.
+			out = append(out, CommunityStats{ID: t.id[s], Size: int(t.size[s]), Internal: max(0, t.in[s]/2), Degree: max(0, t.tot[s])})
 		}
 	}
 	sortStats(out)
@@ -484,6 +489,7 @@ func (t *Tracker) change(c Change) {
 	if cu == cv {
 		t.in[cu] += 2 * d
 		if d < 0 {
+			t.lost[cu] -= 2 * d
 			t.markNode(u)
 			t.markNode(v)
 			t.heat(cu)
@@ -512,6 +518,7 @@ func (t *Tracker) removeNode(u uint32) {
 		t.tot[cj] -= w
 		if cj == c {
 			t.in[c] -= 2 * w
+			t.lost[c] += 2 * w
 		}
 		t.markNode(j)
 		if cj == c {
@@ -520,6 +527,7 @@ func (t *Tracker) removeNode(u uint32) {
 	})
 	t.tot[c] -= ku
 	t.in[c] -= 2 * self
+	t.lost[c] += 2 * self
 	t.unlink(u)
 	t.comm[u] = noSlot
 	if t.size[c] == 0 {

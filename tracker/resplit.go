@@ -1,0 +1,119 @@
+package tracker
+
+import (
+	"cmp"
+	"slices"
+)
+
+// resplitLoss is the share of its internal weight a community must lose in
+// one batch (removed or weakened edges, removed members) before the
+// resplit pass looks at it again. Chosen default: removals are what local
+// moving cannot repair (see resplitPass).
+const resplitLoss = 0.2
+
+// resplitPass re-optimises, from singletons, every community that lost a
+// large share of its internal weight in the batch. Local moving cannot
+// split a community that is no longer a good one as long as each member is
+// still better inside it than alone: when a sliding window expires most of
+// a graph, the nodes left behind can all sit in one community of Q = 0, a
+// local optimum for single moves. The pass runs the static optimiser on the
+// community's induced subgraph (with the whole graph's degrees and 2m in
+// the null model) and splits the community into the parts found when the
+// exact modularity gain is positive; the heaviest part keeps the id. Its
+// cost is the volume of the communities concerned.
+func (t *Tracker) resplitPass() {
+	g := t.g
+	if g.m2 <= 0 {
+		return
+	}
+	for _, c := range t.hot {
+		lost := t.lost[c]
+		t.lost[c] = 0
+		if t.size[c] < 4 || lost < resplitLoss*(t.in[c]+lost) {
+			continue
+		}
+		t.resplit(c)
+	}
+}
+
+func (t *Tracker) resplit(c uint32) {
+	g := t.g
+	var nodes []uint32
+	for i := t.head[c]; i != noSlot; i = t.next[i] {
+		nodes = append(nodes, i)
+	}
+	slices.Sort(nodes)
+	if len(t.local) < len(t.comm) {
+		t.local = append(t.local, make([]uint32, len(t.comm)-len(t.local))...)
+	}
+	for li, u := range nodes {
+		t.local[u] = uint32(li)
+	}
+	var edges []Edge
+	for _, u := range nodes {
+		if s := g.self[u]; s > 0 {
+			edges = append(edges, Edge{U: t.local[u], V: t.local[u], W: s})
+		}
+		st, d := g.start[u], g.deg[u]
+		for p := st; p < st+d; p++ {
+			if v := g.nbr[p]; v > u && t.comm[v] == c {
+				edges = append(edges, Edge{U: t.local[u], V: t.local[v], W: g.wt[p]})
+			}
+		}
+	}
+	sub := NewGraph(len(nodes), edges)
+	s := newSolver(t.o.Resolution, t.o.Seed^uint64(t.batches)^uint64(c))
+	l := sub.view()
+	l.k = make([]float64, len(nodes))
+	for li, u := range nodes {
+		l.k[li] = g.k[u]
+	}
+	l.m2 = g.m2
+	comm, k := s.run(l, nil, 16)
+	if k < 2 {
+		return
+	}
+	if s.split {
+		k = splitDisconnected(&l, comm, k)
+	}
+	// Exact gain of the split on the whole graph's modularity.
+	in := make([]float64, k)
+	tot := make([]float64, k)
+	for li, u := range nodes {
+		gi := comm[li]
+		tot[gi] += g.k[u]
+		in[gi] += 2 * g.self[u]
+		st, d := sub.start[li], sub.deg[li]
+		for p := st; p < st+d; p++ {
+			if comm[sub.nbr[p]] == gi {
+				in[gi] += sub.wt[p]
+			}
+		}
+	}
+	m2, gamma := g.m2, t.o.Resolution
+	gain := -(t.in[c] - gamma*t.tot[c]*t.tot[c]/m2)
+	for gi := range in {
+		gain += in[gi] - gamma*tot[gi]*tot[gi]/m2
+	}
+	if gain <= moveTol*t.tot[c] {
+		return
+	}
+	// The heaviest part stays (and keeps the id); the others move out.
+	order := make([]int, k)
+	for i := range order {
+		order[i] = i
+	}
+	slices.SortStableFunc(order, func(a, b int) int { return cmp.Compare(tot[b], tot[a]) })
+	slot := make([]uint32, k)
+	slot[order[0]] = c
+	for _, gi := range order[1:] {
+		slot[gi] = t.newSlot()
+		t.heat(slot[gi])
+	}
+	for li, u := range nodes {
+		if to := slot[comm[li]]; to != c {
+			t.moveNode(u, to)
+		}
+	}
+	t.res.Splits += k - 1
+}
