@@ -1,9 +1,11 @@
 package ingest
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
+	"slices"
 	"strings"
 	"sync"
 	"time"
@@ -61,8 +63,9 @@ type CommitInfo struct {
 	State State
 	// Messages and Events are what the batch applied; Rejects the rejects
 	// it added to the outbox; Duplicates the messages at or below the
-	// stored sequence that it acknowledged without applying.
-	Messages, Events, Rejects, Duplicates int
+	// stored sequence that it acknowledged without applying; Snapshots
+	// what the callbacks counted in Batch.Snapshots.
+	Messages, Events, Rejects, Duplicates, Snapshots int
 	// Lag is the number of messages still pending on the consumer after
 	// the batch's last message, as the server reported it.
 	Lag uint64
@@ -87,6 +90,10 @@ type ConsumerOptions struct {
 	// MaxBatch is the largest number of messages in one batch (one Pebble
 	// commit, one ack). Default 1000.
 	MaxBatch int
+	// MaxBatchEvents ends a batch once it holds this many events (messages
+	// that carry many events make big batches; a Pebble batch much larger
+	// than a memtable is written as a table of its own). Default 16384.
+	MaxBatchEvents int
 	// ApplyEvery: the changes go to the tracker after every ApplyEvery-th
 	// good event, counted from the store's creation (the chunk rule that
 	// shoal replay --apply-every shares). Default 1000.
@@ -110,7 +117,8 @@ type ConsumerOptions struct {
 	// earlier event. The daemon decides there whether a snapshot is due,
 	// as shoal replay does between chunks.
 	NextChunk func(b *Batch, ts int64, st *State) error
-	// OnCommit is called after every commit, in the consumer's goroutine.
+	// OnCommit is called after every commit (and ack), in the committer
+	// goroutine: one call at a time, in commit order.
 	OnCommit func(CommitInfo)
 	// OnError receives errors the consumer recovers from (a lost
 	// connection, a delivery gap that makes it reposition, a failed
@@ -118,8 +126,9 @@ type ConsumerOptions struct {
 	OnError func(error)
 	// Failpoint, if set, is called with the name of each crash point the
 	// consumer passes ("batch-before-commit", "batch-after-commit"), for
-	// crash tests.
-	Failpoint func(name string)
+	// crash tests. A non-nil error stops the consumer there as a crash
+	// would: nothing more is committed or acked, and Run returns it.
+	Failpoint func(name string) error
 }
 
 // EnsureDefaults fills in the zero fields.
@@ -135,6 +144,9 @@ func (o *ConsumerOptions) EnsureDefaults() {
 	}
 	if o.MaxBatch == 0 {
 		o.MaxBatch = 1000
+	}
+	if o.MaxBatchEvents == 0 {
+		o.MaxBatchEvents = 16384
 	}
 	if o.ApplyEvery == 0 {
 		o.ApplyEvery = 1000
@@ -162,8 +174,8 @@ func (o *ConsumerOptions) Validate() error {
 	if o.Subject == "" || strings.ContainsAny(o.Subject, " \t") {
 		errs = append(errs, fmt.Errorf("subject %q", o.Subject))
 	}
-	if o.MaxBatch < 1 {
-		errs = append(errs, fmt.Errorf("max batch %d < 1", o.MaxBatch))
+	if o.MaxBatch < 1 || o.MaxBatchEvents < 1 {
+		errs = append(errs, fmt.Errorf("max batch %d or max batch events %d < 1", o.MaxBatch, o.MaxBatchEvents))
 	}
 	if o.ApplyEvery < 1 {
 		errs = append(errs, fmt.Errorf("apply every %d < 1", o.ApplyEvery))
@@ -209,11 +221,11 @@ type Consumer struct {
 	changes  []tracker.Change
 	chunkSeq uint64
 	batch    *Batch
-	dirty    map[uint64]struct{}
+	edges    []edgeWrite // edge weights to write at commit
+	incs     []Increment // window increments to write at commit
 	present  []bool
 	flipped  []uint32 // nodes whose presence changed in the batch
 	written  int      // node ids below this have a record in the store
-	events   []Event
 	lastPend uint64
 	expect   uint64 // next consumer (delivery) sequence
 	window   bool
@@ -222,6 +234,18 @@ type Consumer struct {
 	bDups    int
 	bMsgs    int
 	boundary bool // the next event is the first of a chunk
+	draining bool // Drain: the subscription does not decode
+
+	// The committer goroutine (started and stopped by Run) commits batches
+	// handed to it in jobs and returns them through free.
+	jobs     chan commitJob
+	free     chan *Batch
+	inFlight sync.WaitGroup
+	cwg      sync.WaitGroup
+	cmu      struct {
+		sync.Mutex
+		err error
+	}
 
 	sub *subscription
 
@@ -248,7 +272,6 @@ func NewConsumer(js jetstream.JetStream, s *Store, feed *Feed, present []bool, o
 		feed:     feed,
 		st:       s.State(),
 		batch:    s.NewBatch(),
-		dirty:    make(map[uint64]struct{}),
 		present:  append([]bool(nil), present...),
 		written:  feed.Dict().Len(),
 		window:   s.Meta().Window > 0,
@@ -259,15 +282,67 @@ func NewConsumer(js jetstream.JetStream, s *Store, feed *Feed, present []bool, o
 	return c, nil
 }
 
-// observe records every increment change: the edge is dirty, and with a
-// window the increment itself is written.
+// edgeWrite is an edge weight to write at commit; w < 0 means "look the
+// weight up in the window" (the sum of the edge's increments).
+type edgeWrite struct {
+	key uint64 // u<<32 | v, u <= v: the order of the edge keys
+	w   float64
+}
+
+// observe records every increment change. Without a window an edge has
+// one increment, whose weight is the edge's. With a window the increment is
+// recorded and the edge's weight is looked up at commit. The writes are
+// sorted by key at commit: Pebble inserts a batch into its memtable in
+// batch order, and keys in order reuse the skiplist's search path, which
+// makes the commit several times cheaper than random order.
 func (c *Consumer) observe(inc Increment) {
-	c.dirty[edgeKey(inc.U, inc.V)] = struct{}{}
 	if c.window {
-		if err := c.batch.PutIncrement(inc); err != nil {
-			panic(err) // a batch Set fails only on a closed batch: a bug
+		c.incs = append(c.incs, inc)
+		c.edges = append(c.edges, edgeWrite{key: edgeKey(inc.U, inc.V), w: -1})
+		return
+	}
+	c.edges = append(c.edges, edgeWrite{key: edgeKey(inc.U, inc.V), w: inc.W})
+}
+
+// writeEdges adds the recorded increments and edge weights to the batch in
+// key order, the last write of a key winning.
+func (c *Consumer) writeEdges() error {
+	slices.SortStableFunc(c.incs, func(a, b Increment) int {
+		switch {
+		case a.Expiry != b.Expiry:
+			return cmp.Compare(a.Expiry, b.Expiry)
+		case edgeKey(a.U, a.V) != edgeKey(b.U, b.V):
+			return cmp.Compare(edgeKey(a.U, a.V), edgeKey(b.U, b.V))
+		}
+		return cmp.Compare(a.Seq, b.Seq)
+	})
+	for i := range c.incs {
+		if j := i + 1; j < len(c.incs) && c.incs[j].Expiry == c.incs[i].Expiry && c.incs[j].Seq == c.incs[i].Seq &&
+			edgeKey(c.incs[j].U, c.incs[j].V) == edgeKey(c.incs[i].U, c.incs[i].V) {
+			continue // a later state of the same increment follows
+		}
+		if err := c.batch.PutIncrement(c.incs[i]); err != nil {
+			return err
 		}
 	}
+	slices.SortStableFunc(c.edges, func(a, b edgeWrite) int { return cmp.Compare(a.key, b.key) })
+	win := c.feed.Window()
+	for i := range c.edges {
+		e := &c.edges[i]
+		if i+1 < len(c.edges) && c.edges[i+1].key == e.key {
+			continue
+		}
+		u, v := uint32(e.key>>32), uint32(e.key)
+		w := e.w
+		if w < 0 {
+			w = win.Weight(u, v)
+		}
+		if err := c.batch.PutEdge(u, v, w); err != nil {
+			return err
+		}
+	}
+	c.incs, c.edges = c.incs[:0], c.edges[:0]
+	return nil
 }
 
 // Stats returns the current counters.
@@ -299,7 +374,9 @@ func (c *Consumer) Run(ctx context.Context) error {
 	}
 	c.mu.running = true
 	c.mu.Unlock()
+	c.startCommitter()
 	defer func() {
+		c.stopCommitter()
 		c.mu.Lock()
 		c.mu.running = false
 		c.mu.stats.Consuming = false
@@ -307,9 +384,12 @@ func (c *Consumer) Run(ctx context.Context) error {
 	}()
 	err := c.loop(ctx)
 	if ctx.Err() != nil && (err == nil || errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)) {
-		return c.finish()
+		if err := c.finish(); err != nil {
+			return err
+		}
+		return c.flush()
 	}
-	return err
+	return errors.Join(err, c.flush())
 }
 
 func (c *Consumer) loop(ctx context.Context) error {
@@ -324,6 +404,11 @@ func (c *Consumer) loop(ctx context.Context) error {
 		c.sub.stop()
 		c.sub = nil
 		c.setConsuming(false)
+		// What was handed to the committer must be committed (and acked)
+		// before the consumer is moved, and before Run returns.
+		if ferr := c.flush(); ferr != nil {
+			return ferr
+		}
 		if ctx.Err() != nil {
 			return ctx.Err()
 		}
@@ -350,10 +435,19 @@ func (c *Consumer) report(err error) {
 	}
 }
 
-func (c *Consumer) failpoint(name string) {
+func (c *Consumer) failpoint(name string) error {
 	if c.o.Failpoint != nil {
-		c.o.Failpoint(name)
+		return c.o.Failpoint(name)
 	}
+	return nil
+}
+
+func (c *Consumer) fail(err error) {
+	c.cmu.Lock()
+	if c.cmu.err == nil {
+		c.cmu.err = err
+	}
+	c.cmu.Unlock()
 }
 
 // StreamConfig returns the configuration with which the ingest stream is
@@ -454,7 +548,7 @@ func (c *Consumer) position(ctx context.Context) error {
 		return fmt.Errorf("ingest: consumer %s: %w", c.o.Durable, err)
 	}
 	c.expect = 1
-	c.sub, err = subscribe(cons, c.o.MaxBatch)
+	c.sub, err = subscribe(cons, c.o.MaxBatch, !c.draining, c.o.Pseudonymizer)
 	if err != nil {
 		return fmt.Errorf("ingest: consume %s: %w", c.o.Durable, err)
 	}
@@ -484,31 +578,37 @@ func (c *Consumer) recreate(ctx context.Context, from uint64) error {
 
 // consume runs batches until ctx is done, a delivery gap or a fatal error.
 func (c *Consumer) consume(ctx context.Context) error {
-	var msgs []jetstream.Msg
+	var msgs []delivery // received, not yet processed
 	for {
-		var err error
-		idle := time.Duration(0)
-		if len(c.changes) > 0 || c.chunkPending() {
-			idle = c.o.IdleApply
-		}
-		msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, idle)
-		switch {
-		case errors.Is(err, errIdle):
-			if err := c.idleChunk(); err != nil {
+		if len(msgs) == 0 {
+			var err error
+			idle := time.Duration(0)
+			if len(c.changes) > 0 || c.chunkPending() {
+				idle = c.o.IdleApply
+			}
+			msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, idle)
+			switch {
+			case errors.Is(err, errIdle):
+				if err := c.idleChunk(); err != nil {
+					return err
+				}
+				continue
+			case err != nil:
 				return err
 			}
-			continue
-		case err != nil:
-			return err
 		}
-		gap, err := c.process(msgs)
+		n, gap, err := c.process(msgs)
 		if err != nil {
 			return err
 		}
 		if gap {
+			for i := n; i < len(msgs); i++ {
+				msgs[i].release()
+			}
 			return errReposition
 		}
-		if c.lastPend == 0 && c.sub.buffered() == 0 && (len(c.changes) > 0 || c.chunkPending()) {
+		msgs = msgs[:copy(msgs, msgs[n:])]
+		if len(msgs) == 0 && c.lastPend == 0 && c.sub.buffered() == 0 && (len(c.changes) > 0 || c.chunkPending()) {
 			if err := c.idleChunk(); err != nil {
 				return err
 			}
@@ -521,56 +621,60 @@ func (c *Consumer) consume(ctx context.Context) error {
 // boundary).
 func (c *Consumer) chunkPending() bool { return c.chunkSeq != 0 }
 
-// process applies a batch of messages, commits and acks. It stops at a
-// delivery gap (returns gap true) after committing what came before it.
-func (c *Consumer) process(msgs []jetstream.Msg) (gap bool, err error) {
+// process applies a batch of messages, commits and acks, and returns how
+// many of msgs it took: it ends the batch early once it holds
+// MaxBatchEvents events, and stops at a delivery gap (gap true) after
+// committing what came before it.
+func (c *Consumer) process(msgs []delivery) (n int, gap bool, err error) {
 	var last jetstream.Msg
-	for _, m := range msgs {
-		meta, err := m.Metadata()
-		if err != nil {
+	for i := range msgs {
+		d := &msgs[i]
+		if c.bEvents >= c.o.MaxBatchEvents {
+			break
+		}
+		if d.metaErr != nil {
 			// Not a JetStream delivery: nothing to ack, nothing to apply.
-			c.report(fmt.Errorf("ingest: message without metadata: %w", err))
+			n++
+			c.report(fmt.Errorf("ingest: message without metadata: %w", d.metaErr))
 			continue
 		}
-		if meta.Sequence.Consumer != c.expect {
-			c.report(fmt.Errorf("%w: delivery %d where %d was expected (stream seq %d)", errReposition, meta.Sequence.Consumer, c.expect, meta.Sequence.Stream))
+		if d.dseq != c.expect {
+			c.report(fmt.Errorf("%w: delivery %d where %d was expected (stream seq %d)", errReposition, d.dseq, c.expect, d.seq))
 			gap = true
 			break
 		}
+		n++
 		c.expect++
-		c.lastPend = meta.NumPending
-		last = m
-		if meta.Sequence.Stream <= c.st.Applied {
+		c.lastPend = d.pending
+		last = d.m
+		if d.seq <= c.st.Applied {
 			c.bDups++
+			d.release()
 			continue
 		}
-		if err := c.apply(meta.Sequence.Stream, meta.Timestamp.UnixMilli(), m.Data()); err != nil {
-			return false, err
+		err := c.apply(d)
+		d.release()
+		if err != nil {
+			return n, false, err
 		}
 	}
 	if last == nil {
-		return gap, nil
+		return n, gap, nil
 	}
-	if err := c.commit(); err != nil {
-		return false, err
+	if err := c.commit(last); err != nil {
+		return n, false, err
 	}
-	c.failpoint("batch-after-commit")
-	// AckAll: this acks every message of the batch. A lost ack only means
-	// a redelivery, which is skipped as at or below the stored sequence.
-	if err := last.Ack(); err != nil {
-		c.report(fmt.Errorf("ingest: ack: %w", err))
-	}
-	return gap, nil
+	return n, gap, nil
 }
 
-// apply decodes and folds one message into the batch being built.
-func (c *Consumer) apply(seq uint64, arrival int64, data []byte) error {
-	var errs []*DecodeError
-	c.events, errs = DecodeMessage(data, c.events)
-	if len(c.events) == 0 && len(errs) == 0 {
+// apply folds one decoded message (its ids already pseudonymised) into the
+// batch being built.
+func (c *Consumer) apply(d *delivery) error {
+	seq, arrival, events, errs := d.seq, d.arrival, *d.events, d.errs
+	if len(events) == 0 && len(errs) == 0 {
 		c.st.EventsRejected++
 		c.bRejects++
-		r := Reject{Seq: seq, Code: CodeEmptyMessage, Reason: "the message holds no event", Raw: append([]byte{}, data...), Time: arrival}
+		r := Reject{Seq: seq, Code: CodeEmptyMessage, Reason: "the message holds no event", Raw: append([]byte{}, d.m.Data()...), Time: arrival}
 		if c.o.Pseudonymizer != nil {
 			r.Raw = nil
 		}
@@ -578,11 +682,8 @@ func (c *Consumer) apply(seq uint64, arrival int64, data []byte) error {
 			return err
 		}
 	}
-	for i := range c.events {
-		ev := &c.events[i]
-		if p := c.o.Pseudonymizer; p != nil {
-			p.Apply(ev)
-		}
+	for i := range events {
+		ev := &events[i]
 		if c.boundary {
 			c.boundary = false
 			if c.o.NextChunk != nil {
@@ -685,7 +786,7 @@ func (c *Consumer) idleChunk() error {
 	if err := c.chunk(ChunkIdle, c.st.Applied); err != nil {
 		return err
 	}
-	return c.commit()
+	return c.commit(nil)
 }
 
 // finish applies the remainder as a final chunk and commits it.
@@ -693,12 +794,15 @@ func (c *Consumer) finish() error {
 	if err := c.chunk(ChunkFinal, c.st.Applied); err != nil {
 		return err
 	}
-	return c.commit()
+	return c.commit(nil)
 }
 
-// commit writes the new nodes, the presence changes, the dirty edges and
-// the state into the batch and commits it, synced.
-func (c *Consumer) commit() error {
+// commit writes the new nodes, the presence changes, the edges and the
+// state into the batch and hands it to the committer goroutine, which
+// commits it synced, then acks last (if not nil), then calls OnCommit.
+// Meanwhile the consumer builds the next batch in a second one; it waits
+// only when the committer still holds both.
+func (c *Consumer) commit(last jetstream.Msg) error {
 	d := c.feed.Dict()
 	for id := c.written; id < d.Len(); id++ {
 		if err := c.batch.PutNode(uint32(id), d.Name(uint32(id)), id < len(c.present) && c.present[id]); err != nil {
@@ -710,36 +814,106 @@ func (c *Consumer) commit() error {
 			return err
 		}
 	}
-	win := c.feed.Window()
-	for k := range c.dirty {
-		u, v := uint32(k>>32), uint32(k)
-		if err := c.batch.PutEdge(u, v, win.Weight(u, v)); err != nil {
-			return err
-		}
+	if err := c.writeEdges(); err != nil {
+		return err
 	}
 	if err := c.batch.PutState(&c.st); err != nil {
 		return err
 	}
-	c.failpoint("batch-before-commit")
-	if err := c.store.Commit(c.batch, &c.st); err != nil {
-		return err
-	}
 	c.written = d.Len()
 	c.flipped = c.flipped[:0]
-	clear(c.dirty)
-	c.batch.Reset()
-	info := CommitInfo{State: c.st, Messages: c.bMsgs, Events: c.bEvents, Rejects: c.bRejects, Duplicates: c.bDups, Lag: c.lastPend}
+	c.setPending(len(c.changes))
+	job := commitJob{b: c.batch, st: c.st, last: last,
+		info: CommitInfo{State: c.st, Messages: c.bMsgs, Events: c.bEvents, Rejects: c.bRejects, Duplicates: c.bDups, Lag: c.lastPend, Snapshots: c.batch.Snapshots}}
 	c.bMsgs, c.bEvents, c.bRejects, c.bDups = 0, 0, 0, 0
+	if err := c.commitErr(); err != nil {
+		return err
+	}
+	c.inFlight.Add(1)
+	c.jobs <- job
+	c.batch = <-c.free
+	return c.commitErr()
+}
+
+// commitJob is one batch on its way to the disk.
+type commitJob struct {
+	b    *Batch
+	st   State
+	last jetstream.Msg
+	info CommitInfo
+}
+
+func (c *Consumer) startCommitter() {
+	c.jobs = make(chan commitJob, 1)
+	c.free = make(chan *Batch, 1)
+	c.free <- c.store.NewBatch()
+	c.cwg.Add(1)
+	go func() {
+		defer c.cwg.Done()
+		for job := range c.jobs {
+			c.runJob(job)
+			c.inFlight.Done()
+		}
+	}()
+}
+
+func (c *Consumer) stopCommitter() {
+	close(c.jobs)
+	c.cwg.Wait()
+}
+
+// runJob commits one batch (committer goroutine). After a failure nothing
+// more is committed: the consumer returns the error, and the daemon exits
+// and restarts from what is on disk.
+func (c *Consumer) runJob(job commitJob) {
+	defer func() {
+		job.b.Reset()
+		job.b.Snapshots = 0
+		c.free <- job.b
+	}()
+	if c.commitErr() != nil {
+		return
+	}
+	if err := c.failpoint("batch-before-commit"); err != nil {
+		c.fail(err)
+		return
+	}
+	if err := c.store.Commit(job.b, &job.st); err != nil {
+		c.fail(err)
+		return
+	}
+	if err := c.failpoint("batch-after-commit"); err != nil {
+		c.fail(err)
+		return
+	}
+	// AckAll: this acks every message of the batch. A lost ack only means
+	// a redelivery, which is skipped as at or below the stored sequence.
+	if job.last != nil {
+		if err := job.last.Ack(); err != nil {
+			c.report(fmt.Errorf("ingest: ack: %w", err))
+		}
+	}
 	c.mu.Lock()
-	c.mu.stats.State = c.st
-	c.mu.stats.Pending = len(c.changes)
-	c.mu.stats.Duplicates += uint64(info.Duplicates)
-	c.mu.stats.Lag = c.lastPend
+	c.mu.stats.State = job.st
+	c.mu.stats.Duplicates += uint64(job.info.Duplicates)
+	c.mu.stats.Lag = job.info.Lag
 	c.mu.Unlock()
 	if c.o.OnCommit != nil {
-		c.o.OnCommit(info)
+		c.o.OnCommit(job.info)
 	}
-	return nil
+}
+
+func (c *Consumer) commitErr() error {
+	c.cmu.Lock()
+	defer c.cmu.Unlock()
+	return c.cmu.err
+}
+
+// flush waits until every batch handed to the committer is committed and
+// acked, and returns the commit error if there was one.
+func (c *Consumer) flush() error {
+	c.inFlight.Wait()
+	return c.commitErr()
 }
 
 // Drain receives n messages from stream sequence from on through the same
@@ -752,13 +926,15 @@ func (c *Consumer) Drain(ctx context.Context, from uint64, n int) error {
 	}
 	saved := c.st.Applied
 	c.st.Applied = from - 1
+	c.draining = true
 	err := c.position(ctx)
 	c.st.Applied = saved
+	c.draining = false
 	if err != nil {
 		return err
 	}
 	defer func() { c.sub.stop(); c.sub = nil }()
-	var msgs []jetstream.Msg
+	var msgs []delivery
 	for got := 0; got < n; {
 		var err error
 		msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, 0)
@@ -766,17 +942,15 @@ func (c *Consumer) Drain(ctx context.Context, from uint64, n int) error {
 			return err
 		}
 		var last jetstream.Msg
-		for _, m := range msgs {
-			meta, err := m.Metadata()
-			if err != nil {
+		for _, d := range msgs {
+			if d.metaErr != nil {
 				continue
 			}
-			if meta.Sequence.Consumer != c.expect {
+			if d.dseq != c.expect {
 				return fmt.Errorf("%w during drain", errReposition)
 			}
 			c.expect++
-			_ = m.Data()
-			last = m
+			last = d.m
 			got++
 		}
 		if last != nil {
@@ -842,21 +1016,60 @@ func transient(err error) bool {
 
 var errIdle = errors.New("ingest: idle")
 
+// delivery is one received message, already parsed and decoded in the
+// subscription's goroutine (see subscribe).
+type delivery struct {
+	m        jetstream.Msg
+	dseq     uint64 // consumer (delivery) sequence
+	seq      uint64 // stream sequence
+	pending  uint64 // messages still pending on the consumer
+	arrival  int64  // stream time stamp, Unix ms
+	metaErr  error
+	decoded  bool
+	events   *[]Event
+	errs     []*DecodeError
+	dataSize int
+}
+
+// eventBufs recycles the event slices of deliveries.
+var eventBufs = sync.Pool{New: func() any { s := make([]Event, 0, 8); return &s }}
+
 // subscription is one incarnation of the pull subscription: the library's
-// Consume callback feeds a buffered channel that the Run goroutine reads in
-// batches. A new one is made at every (re)position, so that deliveries to
-// an old one can never be mistaken for new ones.
+// Consume callback parses the metadata, decodes the message (and
+// pseudonymises its ids) in the library's delivery goroutine, so that this
+// work runs beside the fold, and feeds a buffered channel that the Run
+// goroutine reads in batches. A new one is made at every (re)position, so
+// that deliveries to an old one can never be mistaken for new ones.
 type subscription struct {
 	cc   jetstream.ConsumeContext
-	ch   chan jetstream.Msg
+	ch   chan delivery
 	quit chan struct{}
 }
 
-func subscribe(cons jetstream.Consumer, batch int) (*subscription, error) {
-	s := &subscription{ch: make(chan jetstream.Msg, 2*batch), quit: make(chan struct{})}
+// subscribe starts a subscription. With decode false (Drain) messages are
+// not decoded. p, if not nil, is used by the delivery goroutine only.
+func subscribe(cons jetstream.Consumer, batch int, decode bool, p *Pseudonymizer) (*subscription, error) {
+	s := &subscription{ch: make(chan delivery, 2*batch), quit: make(chan struct{})}
 	cc, err := cons.Consume(func(m jetstream.Msg) {
+		d := delivery{m: m}
+		meta, err := m.Metadata()
+		if err != nil {
+			d.metaErr = err
+		} else {
+			d.dseq, d.seq, d.pending, d.arrival = meta.Sequence.Consumer, meta.Sequence.Stream, meta.NumPending, meta.Timestamp.UnixMilli()
+		}
+		if decode && err == nil {
+			buf := eventBufs.Get().(*[]Event)
+			*buf, d.errs = DecodeMessage(m.Data(), *buf)
+			if p != nil {
+				for i := range *buf {
+					p.Apply(&(*buf)[i])
+				}
+			}
+			d.events, d.decoded, d.dataSize = buf, true, len(m.Data())
+		}
 		select {
-		case s.ch <- m:
+		case s.ch <- d:
 		case <-s.quit:
 		}
 	}, jetstream.PullMaxMessages(batch))
@@ -865,6 +1078,18 @@ func subscribe(cons jetstream.Consumer, batch int) (*subscription, error) {
 	}
 	s.cc = cc
 	return s, nil
+}
+
+// release returns a delivery's event slice to the pool.
+func (d *delivery) release() {
+	if d.events != nil {
+		if cap(*d.events) <= 4096 {
+			clear(*d.events)
+			*d.events = (*d.events)[:0]
+			eventBufs.Put(d.events)
+		}
+		d.events = nil
+	}
 }
 
 // stop ends the subscription and waits for the library to let go of it.
@@ -884,7 +1109,7 @@ func (s *subscription) buffered() int { return len(s.ch) }
 
 // next waits for a first message (at most idle, if idle > 0, after which it
 // returns errIdle), then takes what is already there, up to max.
-func (s *subscription) next(ctx context.Context, dst []jetstream.Msg, max int, idle time.Duration) ([]jetstream.Msg, error) {
+func (s *subscription) next(ctx context.Context, dst []delivery, max int, idle time.Duration) ([]delivery, error) {
 	var timeout <-chan time.Time
 	if idle > 0 {
 		t := time.NewTimer(idle)

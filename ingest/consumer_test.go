@@ -477,13 +477,14 @@ func TestConsumerCrash(t *testing.T) {
 		count := 0
 		var clone *vfs.MemFS
 		h := newHarness(t, js, "store", &StoreOptions{FS: fsys}, ConsumerOptions{Graph: "g", MaxBatch: 50, ApplyEvery: 100,
-			Failpoint: func(name string) {
+			Failpoint: func(name string) error {
 				if name == p.name {
 					if count++; count == p.n {
 						clone = fsys.CrashClone(vfs.CrashCloneCfg{})
-						panic("crash at " + name)
+						return errors.New("crash at " + name)
 					}
 				}
+				return nil
 			}})
 		h.start()
 		err := <-h.done
@@ -826,5 +827,3 @@ func TestConsumerPseudonymized(t *testing.T) {
 	}
 	h.store.Close()
 }
-
-var _ = errors.New

@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"sync"
 	"time"
 
 	"github.com/cockroachdb/pebble/v2"
@@ -96,6 +97,9 @@ type StoreOptions struct {
 	NoSync bool
 	// CacheSize is Pebble's block cache in bytes. Zero means 64 MiB.
 	CacheSize int64
+	// MemTableSize is Pebble's memtable size in bytes. Zero means 64 MiB
+	// (a batch above half of it goes to disk as a table of its own).
+	MemTableSize uint64
 	// FS replaces the file system (tests: a crashable in-memory one). nil
 	// means the OS.
 	FS vfs.FS
@@ -226,9 +230,12 @@ func decodeState(b []byte) (State, error) {
 // at a time. Its methods may be called from several goroutines; batches
 // are not shared.
 type Store struct {
-	db     *pebble.DB
-	meta   Meta
-	state  State
+	db   *pebble.DB
+	meta Meta
+	mu   struct {
+		sync.Mutex
+		state State
+	}
 	sync   *pebble.WriteOptions
 	dir    string
 	closed bool
@@ -289,7 +296,7 @@ func OpenStore(dir string, o *StoreOptions) (*Store, error) {
 	}
 	if !exists {
 		s.meta = Meta{Format: StoreFormat, Graph: o.Graph, Window: o.Window, KeyID: o.KeyID}
-		s.state = NewState()
+		s.mu.state = NewState()
 		if err := s.writeMeta(); err != nil {
 			db.Close()
 			return nil, err
@@ -299,7 +306,7 @@ func OpenStore(dir string, o *StoreOptions) (*Store, error) {
 			db.Close()
 			return nil, err
 		}
-		if s.state, err = readState(db); err != nil {
+		if s.mu.state, err = readState(db); err != nil {
 			db.Close()
 			return nil, err
 		}
@@ -336,6 +343,10 @@ func openPebble(dir string, o *StoreOptions, fsys vfs.FS, readOnly bool) (*pebbl
 	}
 	if po.Logger == nil {
 		po.Logger = quietLogger{}
+	}
+	po.MemTableSize = o.MemTableSize
+	if po.MemTableSize == 0 {
+		po.MemTableSize = 64 << 20
 	}
 	cache := o.CacheSize
 	if cache == 0 {
@@ -479,7 +490,7 @@ func (s *Store) writeMeta() error {
 		{metaGraph, []byte(s.meta.Graph)},
 		{metaWindow, win[:]},
 		{metaPseudonym, s.meta.KeyID},
-		{metaState, s.state.encode(nil)},
+		{metaState, s.mu.state.encode(nil)},
 		// The version goes last in key order too, but what matters is that
 		// the batch is atomic: a store either has all of these or none.
 		{metaFormat, []byte{StoreFormat}},
@@ -499,7 +510,11 @@ func (s *Store) writeMeta() error {
 func (s *Store) Meta() Meta { return s.meta }
 
 // State returns the state as of the last commit (or as opened).
-func (s *Store) State() State { return s.state }
+func (s *Store) State() State {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	return s.mu.state
+}
 
 // DB returns the Pebble database, for packages snapshot and events to read
 // and for their batches. Do not write keys of this package's families.
@@ -528,6 +543,9 @@ type Batch struct {
 	b   *pebble.Batch
 	key []byte
 	val []byte
+	// Snapshots counts the snapshots a caller wrote into the batch; the
+	// consumer reports it in CommitInfo once the batch is committed.
+	Snapshots int
 }
 
 // NewBatch returns an empty batch.
@@ -669,7 +687,9 @@ func (s *Store) Commit(b *Batch, st *State) error {
 		return fmt.Errorf("ingest: commit: %w", err)
 	}
 	if st != nil {
-		s.state = *st
+		s.mu.Lock()
+		s.mu.state = *st
+		s.mu.Unlock()
 	}
 	return nil
 }
@@ -701,13 +721,46 @@ func (r *Restored) Graph() *tracker.Graph {
 	return g
 }
 
+// Tracker builds the tracker over the restored graph. With a nil
+// membership it runs a full static pass (tracker.NewFrom). Otherwise it
+// starts from membership (a snapshot's, one community id per node id,
+// tracker.NoCommunity for none): nodes present now but in no community
+// there (added since the snapshot) start as communities of their own with
+// fresh ids from next on, in node order; communities that edges removed
+// since have disconnected are split (tracker.NewWithPartition). Both are
+// deterministic.
+func (r *Restored) Tracker(o *tracker.Options, membership []uint64, next uint64) (*tracker.Tracker, error) {
+	g := r.Graph()
+	if membership == nil {
+		return tracker.NewFrom(g, o)
+	}
+	mem := make([]uint64, g.Len())
+	for i := range mem {
+		mem[i] = tracker.NoCommunity
+		if i < len(membership) && g.Has(uint32(i)) {
+			mem[i] = membership[i]
+		}
+		if mem[i] != tracker.NoCommunity {
+			next = max(next, mem[i]+1)
+		}
+	}
+	next = max(next, 1)
+	for i := range mem {
+		if g.Has(uint32(i)) && mem[i] == tracker.NoCommunity {
+			mem[i] = next
+			next++
+		}
+	}
+	return tracker.NewWithPartition(g, o, mem, next)
+}
+
 // Restore reads the dictionary, the edges and the window increments back.
 // Without a window the increments are the edges (one each, never
 // expiring); with one they are read from family 'x'. It checks that the
 // ids are dense, the names unique, every edge names known nodes, and, with
 // a window, that each edge's increments sum to its stored weight.
 func (s *Store) Restore() (*Restored, error) {
-	r := &Restored{Dict: NewDict(), State: s.state}
+	r := &Restored{Dict: NewDict(), State: s.State()}
 	err := scan(s.db, prefixNode, func(k, v []byte) error {
 		if len(k) != 5 || len(v) < 2 {
 			return fmt.Errorf("%w: node record", ErrStoreCorrupt)
@@ -783,8 +836,8 @@ func (s *Store) Restore() (*Restored, error) {
 			}
 		}
 	}
-	if s.state.Watermark != math.MinInt64 {
-		if k := win.Expire(s.state.Watermark, nil); k != 0 {
+	if r.State.Watermark != math.MinInt64 {
+		if k := win.Expire(r.State.Watermark, nil); k != 0 {
 			return nil, fmt.Errorf("%w: %d increments expired before the stored watermark", ErrStoreCorrupt, k)
 		}
 	}
@@ -869,8 +922,18 @@ func (s *Store) Increments(fn func(inc Increment) error) error {
 }
 
 // DiskUsage returns the bytes the database takes on disk (Pebble's
-// metrics: tables, WAL, manifest).
+// metrics: tables, WAL files kept for reuse, manifest).
 func (s *Store) DiskUsage() uint64 { return s.db.Metrics().DiskSpaceUsage() }
+
+// TableBytes returns the bytes of the database's tables (Pebble's metrics,
+// all levels): the data at rest, without the write-ahead log.
+func (s *Store) TableBytes() uint64 { return uint64(s.db.Metrics().Total().TablesSize) }
+
+// EdgeBytes estimates the bytes the edge family takes in the tables
+// (Pebble's EstimateDiskUsage over ['e', 'f')).
+func (s *Store) EdgeBytes() (uint64, error) {
+	return s.db.EstimateDiskUsage([]byte{prefixEdge}, []byte{prefixEdge + 1})
+}
 
 // StoreDir returns the directory of the store inside a daemon data
 // directory.

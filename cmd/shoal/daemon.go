@@ -92,7 +92,9 @@ type daemon struct {
 	lastID     uint64
 	mem        []uint64
 	trackerSeq uint64
-	tookSnap   bool
+
+	queue  *ingest.ChunkQueue // chunks on their way to the tracker
+	nextID atomic.Uint64      // the tracker's NextID after the last chunk
 
 	lastSnap  atomic.Pointer[snapshot.Header]
 	snapshots atomic.Int64
@@ -136,11 +138,14 @@ func runDaemon(ctx context.Context, e *env, o *daemonOptions, log *slog.Logger) 
 	co.NextChunk = d.nextChunk
 	co.OnCommit = d.onCommit
 	co.OnError = func(err error) { log.Warn("ingest: recovering", "err", err) }
-	co.Failpoint = d.crash.hit
+	co.Failpoint = func(name string) error { d.crash.hit(name); return nil }
 	d.cons, err = ingest.NewConsumer(d.js, d.store, d.feed, d.restored.Present, &co)
 	if err != nil {
 		return usageError{err}
 	}
+	d.nextID.Store(d.mu.tr.NextID())
+	d.queue = ingest.NewChunkQueue(0, d.applyTracker)
+	defer d.queue.Close()
 	d.restored = nil
 
 	var hs *http.Server
@@ -335,60 +340,33 @@ func (d *daemon) restore() error {
 	d.trackerSeq = st.Applied
 
 	t1 := time.Now()
-	g := r.Graph()
 	method := d.o.rebuild
 	if method == "auto" {
 		method = "static"
-		if d.prev != nil && g.Edges() > 0 {
+		if d.prev != nil {
 			method = "snapshot"
 		}
 	}
 	var tr *tracker.Tracker
 	switch {
-	case g.Edges() == 0 && g.Nodes() == 0:
+	case len(r.Edges) == 0:
 		method = "empty"
-		tr, err = tracker.New(&d.o.topts)
+		tr, err = r.Tracker(&d.o.topts, nil, 0)
 	case method == "snapshot" && d.prev != nil:
-		tr, err = trackerFromSnapshot(g, &d.o.topts, d.prev, st.NextCommunity)
+		tr, err = r.Tracker(&d.o.topts, d.prev.Membership(r.Dict.Len()), st.NextCommunity)
 	default:
 		method = "static"
-		tr, err = tracker.NewFrom(g, &d.o.topts)
+		tr, err = r.Tracker(&d.o.topts, nil, 0)
 	}
 	if err != nil {
 		return err
 	}
+	g := tr.Graph()
 	d.mu.tr = tr
 	d.restored = r
 	d.log.Info("tracker: rebuilt", "method", method, "nodes", g.Nodes(), "edges", g.Edges(), "communities", tr.NumCommunities(),
 		"modularity", finite(tr.Modularity()), "read", tRead.Round(time.Millisecond), "build", time.Since(t1).Round(time.Millisecond))
 	return nil
-}
-
-// trackerFromSnapshot starts a tracker on g from the snapshot's
-// membership: nodes added since the snapshot start as communities of their
-// own (fresh ids above next, in node order), communities that the edges
-// since have disconnected are split (tracker.NewWithPartition).
-func trackerFromSnapshot(g *tracker.Graph, o *tracker.Options, s *snapshot.Snapshot, next uint64) (*tracker.Tracker, error) {
-	mem := make([]uint64, g.Len())
-	for i := range mem {
-		mem[i] = tracker.NoCommunity
-	}
-	for _, c := range s.Communities {
-		next = max(next, c.ID+1)
-		for _, m := range c.Members {
-			if int(m) < len(mem) && g.Has(m) {
-				mem[m] = c.ID
-			}
-		}
-	}
-	next = max(next, 1)
-	for i := range mem {
-		if g.Has(uint32(i)) && mem[i] == tracker.NoCommunity {
-			mem[i] = next
-			next++
-		}
-	}
-	return tracker.NewWithPartition(g, o, mem, next)
 }
 
 // startNATS starts the embedded server (no --nats) or connects to the
@@ -478,20 +456,16 @@ func (n *natsLog) Debugf(f string, a ...any)  {}
 func (n *natsLog) Tracef(f string, a ...any)  {}
 
 // apply hands a chunk to the tracker (consumer goroutine).
+// The chunk goes to the tracker goroutine (d.queue) and the consumer goes
+// on; a snapshot waits for the queue to drain first.
 func (d *daemon) apply(b *ingest.Batch, ch *ingest.Chunk) error {
 	if len(ch.Changes) > 0 || ch.Reason != ingest.ChunkFinal {
-		d.mu.Lock()
-		res, err := d.mu.tr.Apply(ch.Changes)
-		d.mu.Unlock()
-		if err != nil {
+		if err := d.queue.Push(ch.Changes); err != nil {
 			return err
-		}
-		if res.Full {
-			d.log.Debug("tracker: drift guard ran a full pass", "seq", ch.Seq)
 		}
 	}
 	d.trackerSeq = ch.Seq
-	ch.State.NextCommunity = d.mu.tr.NextID()
+	ch.State.NextCommunity = d.nextID.Load()
 	if ch.Reason == ingest.ChunkFinal && d.o.snapshotOnExit && ch.State.EventsApplied > ch.State.SnapshotEvents {
 		if err := d.snapshot(b, ch.Seq, ch.Watermark); err != nil {
 			return err
@@ -541,9 +515,27 @@ func (d *daemon) boundary(ts int64) int64 {
 	return b
 }
 
+// applyTracker runs in the tracker goroutine (the chunk queue).
+func (d *daemon) applyTracker(chs []tracker.Change) error {
+	d.mu.Lock()
+	res, err := d.mu.tr.Apply(chs)
+	next := d.mu.tr.NextID()
+	d.mu.Unlock()
+	d.nextID.Store(next)
+	if res.Full {
+		d.log.Debug("tracker: drift guard ran a full pass")
+	}
+	return err
+}
+
 // snapshot freezes the tracker into b with the events since the previous
-// snapshot (the outbox), so that they commit with the batch.
+// snapshot (the outbox), so that they commit with the batch. It waits for
+// the tracker goroutine to apply every chunk first; the tracker is then
+// still, and read here without the lock (HTTP readers only read too).
 func (d *daemon) snapshot(b *ingest.Batch, seq uint64, wm int64) error {
+	if err := d.queue.Wait(); err != nil {
+		return err
+	}
 	if wm == math.MinInt64 {
 		wm = 0
 	}
@@ -578,7 +570,8 @@ func (d *daemon) snapshot(b *ingest.Batch, seq uint64, wm int64) error {
 		return err
 	}
 	d.crash.hit("snapshot-written")
-	d.prev, d.lastID, d.tookSnap = s, id, true
+	b.Snapshots++
+	d.prev, d.lastID = s, id
 	h := s.Header
 	d.lastSnap.Store(&h)
 	d.snapshots.Add(1)
@@ -587,13 +580,12 @@ func (d *daemon) snapshot(b *ingest.Batch, seq uint64, wm int64) error {
 	return nil
 }
 
-// onCommit runs after every commit (consumer goroutine): retention after
-// a snapshot, and a wake-up for the outbox.
+// onCommit runs after every commit (in the consumer's committer
+// goroutine): retention after a snapshot, and a wake-up for the outbox.
 func (d *daemon) onCommit(ci ingest.CommitInfo) {
-	if ci.Rejects > 0 || d.tookSnap {
-		if d.tookSnap {
+	if ci.Rejects > 0 || ci.Snapshots > 0 {
+		if ci.Snapshots > 0 {
 			d.retain()
-			d.tookSnap = false
 		}
 		select {
 		case d.wake <- struct{}{}:
@@ -613,8 +605,8 @@ func (d *daemon) retain() {
 	b := db.NewBatch()
 	defer b.Close()
 	n, err := snapshot.Retain(b, db, d.o.snapshotKeep)
-	if err == nil && d.lastID >= uint64(d.o.snapshotKeep) {
-		_, err = events.Trim(b, db, d.lastID-uint64(d.o.snapshotKeep)+1)
+	if h := d.lastSnap.Load(); err == nil && h != nil && h.ID >= uint64(d.o.snapshotKeep) {
+		_, err = events.Trim(b, db, h.ID-uint64(d.o.snapshotKeep)+1)
 	}
 	if err == nil && !b.Empty() {
 		err = b.Commit(nil)

@@ -51,7 +51,7 @@ func (d *daemon) stats() statsResponse {
 	st := cs.State
 	r := statsResponse{
 		Graph: d.o.graph, AppliedSeq: st.Applied, EventsApplied: st.EventsApplied, EventsRejected: st.EventsRejected,
-		MessagesApplied: st.Messages, PendingChanges: cs.Pending, Duplicates: cs.Duplicates, Repositions: cs.Repositions,
+		MessagesApplied: st.Messages, PendingChanges: cs.Pending + d.queue.Pending(), Duplicates: cs.Duplicates, Repositions: cs.Repositions,
 		ConsumerLag: cs.Lag, Consuming: cs.Consuming, Snapshots: d.snapshots.Load(), Window: windowText(d.o.window),
 		Pseudonymized: d.pseudo != nil, StoreBytes: d.store.DiskUsage(), UptimeSeconds: time.Since(d.started).Seconds(),
 	}
