@@ -33,6 +33,8 @@ func main() {
 		err = runIncremental(ctx, os.Args[2:], os.Stdout)
 	case "accuracy":
 		err = runAccuracy(ctx, os.Args[2:], os.Stdout)
+	case "ingest":
+		err = runIngest(ctx, os.Args[2:], os.Stdout)
 	case "replay":
 		err = runReplay(ctx, os.Args[2:], os.Stdout)
 	case "help", "-h", "--help":
