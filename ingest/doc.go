@@ -95,7 +95,73 @@
 //
 // # Store key space
 //
-// TODO(store): the Pebble key space (prefixes, big-endian ids, value
-// encodings) and the exactly-once protocol are described here by the
-// store's author.
+// The daemon's [Store] is one Pebble database (format version
+// [StoreFormat]). Keys start with a family byte; integers in keys are
+// big-endian and fixed-width, so byte order is numeric order and a prefix
+// scan comes out sorted. Weights are the IEEE 754 bits of the float64,
+// big-endian, with trailing zero bytes dropped (1.0 takes 2 bytes).
+//
+//	'm' name                      metadata: "format" (1 byte, the version),
+//	                              "graph" (the name), "window" (span in ms,
+//	                              8 bytes), "pseudonym" (key id, 8 bytes, or
+//	                              empty), "state" ([State]: version byte,
+//	                              uvarints; the watermark a zig-zag varint)
+//	'i' id (4)                    flags (1 byte: 1 = node absent) | external id
+//	'e' u (4) v (4), u <= v       weight of the undirected edge
+//	'x' expiry (8) u (4) v (4) seq (8)
+//	                              weight of one window increment (window
+//	                              mode only); the expiry is Unix ms with the
+//	                              sign bit flipped, so the family is in
+//	                              expiry order
+//	'r' seq (8) line (4)          a rejected line waiting to be published:
+//	                              version | code | field | reason | raw bytes
+//	                              (each uvarint-length-prefixed) | time
+//	's', 'v'                      snapshots and the event outbox (packages
+//	                              snapshot and events)
+//
+// Departures from DESIGN.md section 4, to keep an edge under 32 bytes on
+// disk: an edge is stored once (u <= v), not in both directions, since the
+// daemon holds the adjacency in memory; and there is no name-to-id family
+// 'n', since the dictionary is rebuilt in memory from 'i' at start. Without
+// a window the edges are the increments (one per edge, never expiring), so
+// family 'x' stays empty.
+//
+// # Exactly once
+//
+// [Consumer.Run] keeps this protocol; the numbers are referred to in
+// consumer.go.
+//
+//  1. At start the store says where ingest stands: the durable consumer
+//     (ack policy "all") is reset to the stored sequence + 1 (created if
+//     absent), whatever its own ack floor says.
+//  2. Messages come in batches of at most MaxBatch messages and about
+//     MaxBatchEvents events. Each delivery must carry the next consumer
+//     (delivery) sequence; a gap (deliveries lost in a broker outage, a
+//     consumer reset by someone else, a client that dropped messages) ends
+//     the batch before the gap, and once what came before is committed the
+//     consumer goes back to step 1.
+//  3. A message at or below the sequence applied so far (a redelivery) is
+//     acked with the batch and not applied.
+//  4. Every other message is decoded ([DecodeMessage]; in the delivery
+//     goroutine, ahead of the fold) and its good events go through the
+//     [Feed] (dictionary, window) into tracker changes; each bad line, and a
+//     message with no event at all, becomes a [Reject] in the outbox and is
+//     counted. After every ApplyEvery-th good event (counted from the
+//     store's creation) the changes are handed to ConsumerOptions.Apply,
+//     which may add a snapshot and its events to the same batch.
+//  5. The new dictionary entries, presence changes, edge weights (in key
+//     order), increments, rejects, and the state (last sequence,
+//     watermark, counters) go into one Pebble batch, which the committer
+//     goroutine commits synced while the consumer builds the next batch.
+//  6. Only after the commit is the last message of the batch acked (one
+//     ack covers the batch), and then OnCommit called. A crash between 5
+//     and 6 means a redelivery, which step 3 skips; a crash before 5 loses
+//     only what was never acked. A failed commit stops the consumer: what
+//     is on disk is the truth for the next start.
+//  7. When the server reports nothing pending, or nothing came for
+//     IdleApply, the remainder is handed to Apply and committed.
+//  8. Rejects are published from the outbox to the rejects subject with
+//     the message id graph.seq.line and deleted once acknowledged
+//     ([RejectPublisher]); with pseudonymisation the outbox holds no raw
+//     bytes or reasons, which are read back from the ingest stream.
 package ingest
