@@ -125,6 +125,14 @@ func runPublish(ctx context.Context, e *env, args []string) error {
 			m.Header.Set(jetstream.MsgIDHeader, *idPrefix+"-"+strconv.Itoa(sum.Messages))
 		}
 		f, err := js.PublishMsgAsync(m)
+		for errors.Is(err, jetstream.ErrTooManyStalledMsgs) {
+			// The server is slower than we are: wait for older acks, then
+			// try again.
+			if err := acks.settle(ctx, (len(acks.futs)+1)/2); err != nil {
+				return err
+			}
+			f, err = js.PublishMsgAsync(m)
+		}
 		if err != nil {
 			return fmt.Errorf("publish message %d: %w", sum.Messages, err)
 		}
