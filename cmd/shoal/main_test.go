@@ -203,44 +203,22 @@ func TestUsageErrors(t *testing.T) {
 // through the daemon (embedded NATS, Pebble, JetStream events stream) and
 // through replay alike: the ring of mule accounts is born, group 12 (which
 // stops paying within itself) dies, and the output carries the caution
-// about communities. Both paths apply the same chunks of events, so they
-// report the same kinds of change on the same days (fresh ids may differ).
+// about communities. (The daemon applies a partial chunk whenever it has
+// caught up with the stream, so its other events depend on how fast the
+// demo's publisher runs; only the planted changes are compared.)
 func TestDemo(t *testing.T) {
-	changes := func(args ...string) []string {
-		out, errs, code := runIn(t, "", append([]string{"demo"}, args...)...)
+	for _, args := range [][]string{{"demo"}, {"demo", "--replay"}} {
+		out, errs, code := runIn(t, "", args...)
 		if code != 0 {
-			t.Fatalf("demo %v: exit %d: %s", args, code, errs)
+			t.Fatalf("%v: exit %d: %s", args, code, errs)
 		}
-		if !strings.Contains(out, "not evidence") {
-			t.Fatalf("demo %v: no caution in the output:\n%s", args, out)
-		}
-		var lines []string
+		var birth, death bool
 		for _, line := range strings.Split(out, "\n") {
-			if strings.Contains(line, " -> ") && !strings.Contains(line, "continue") {
-				lines = append(lines, line)
-			}
+			birth = birth || (strings.Contains(line, " birth ") && strings.Contains(line, "acct-0250"))
+			death = death || strings.Contains(line, " death ")
 		}
-		return lines
-	}
-	kinds := func(lines []string) string {
-		var k []string
-		for _, l := range lines {
-			f := strings.Fields(l)
-			k = append(k, strings.Join(f[:6], " "))
+		if !birth || !death || !strings.Contains(out, "not evidence") {
+			t.Fatalf("%v: output lacks the ring's birth, the group's death or the caution:\n%s", args, out)
 		}
-		return strings.Join(k, "\n")
-	}
-	daemon := changes()
-	replay := changes("--replay")
-	var birth, death bool
-	for _, line := range daemon {
-		birth = birth || (strings.Contains(line, " birth ") && strings.Contains(line, "acct-0250"))
-		death = death || strings.Contains(line, " death ")
-	}
-	if !birth || !death {
-		t.Fatalf("demo output lacks the ring's birth or the group's death:\n%s", strings.Join(daemon, "\n"))
-	}
-	if kinds(daemon) != kinds(replay) {
-		t.Fatalf("daemon and replay differ:\n%s\n---\n%s", strings.Join(daemon, "\n"), strings.Join(replay, "\n"))
 	}
 }
