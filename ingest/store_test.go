@@ -9,11 +9,15 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 	"testing"
 	"time"
 
 	"github.com/cockroachdb/pebble/v2"
+
+	"shoal/tracker"
 )
 
 func newStore(t testing.TB, dir string, o *StoreOptions) *Store {
@@ -239,5 +243,108 @@ func TestStoreNotShoal(t *testing.T) {
 	db.Close()
 	if _, err := OpenStore(dir, &StoreOptions{Graph: "g", Create: true}); !errors.Is(err, ErrNotStore) {
 		t.Fatalf("%v, want ErrNotStore", err)
+	}
+}
+
+// TestRestoredTracker: from scratch the tracker runs a static pass; from a
+// membership, nodes missing from it become communities of their own with
+// fresh ids, and a community the edges no longer connect is split
+// (tracker.NewWithPartition): two triangles {0,1,2} and {3,4,5} joined by
+// nothing, given as one community 7, come back as two; node 6, new, gets
+// an id above next.
+func TestRestoredTracker(t *testing.T) {
+	s := newStore(t, t.TempDir(), &StoreOptions{Graph: "g", Create: true})
+	defer s.Close()
+	b := s.NewBatch()
+	for i := range 8 {
+		b.PutNode(uint32(i), "n"+strconv.Itoa(i), i != 7)
+	}
+	for _, e := range [][2]uint32{{0, 1}, {1, 2}, {0, 2}, {3, 4}, {4, 5}, {3, 5}, {5, 6}} {
+		b.PutEdge(e[0], e[1], 1)
+	}
+	if err := s.Commit(b, nil); err != nil {
+		t.Fatal(err)
+	}
+	r, err := s.Restore()
+	if err != nil {
+		t.Fatal(err)
+	}
+	static, err := r.Tracker(&tracker.Options{}, nil, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if static.NumCommunities() != 2 || static.Community(0) == static.Community(3) {
+		t.Fatalf("static: %d communities", static.NumCommunities())
+	}
+	mem := []uint64{7, 7, 7, 7, 7, 7, tracker.NoCommunity, tracker.NoCommunity}
+	warm, err := r.Tracker(&tracker.Options{}, mem, 20)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := warm.Check(); err != nil {
+		t.Fatal(err)
+	}
+	if warm.Community(0) == warm.Community(3) || warm.Community(0) != warm.Community(1) || warm.Community(3) != warm.Community(4) {
+		t.Fatalf("the disconnected community was not split: %d %d %d %d", warm.Community(0), warm.Community(1), warm.Community(3), warm.Community(4))
+	}
+	if c := warm.Community(6); c < 20 || c == warm.Community(5) {
+		t.Fatalf("new node 6 has community %d, want a fresh id >= 20 of its own", c)
+	}
+	if warm.Community(7) != tracker.NoCommunity {
+		t.Fatal("absent node 7 has a community")
+	}
+}
+
+// BenchmarkStoreCommit: one synced commit of a batch of 16384 edge writes
+// in key order plus the state, the consumer's unit of work.
+func BenchmarkStoreCommit(b *testing.B) {
+	s := newStore(b, b.TempDir(), &StoreOptions{Graph: "g", Create: true})
+	defer s.Close()
+	rng := rand.New(rand.NewPCG(1, 1))
+	const n = 16384
+	keys := make([]uint64, n)
+	batch := s.NewBatch()
+	st := NewState()
+	b.ReportAllocs()
+	for b.Loop() {
+		for i := range keys {
+			u, v := uint32(rng.IntN(100000)), uint32(rng.IntN(100000))
+			keys[i] = edgeKey(u, v)
+		}
+		slices.Sort(keys)
+		for _, k := range keys {
+			batch.PutEdge(uint32(k>>32), uint32(k), 1.5)
+		}
+		st.Applied++
+		batch.PutState(&st)
+		if err := s.Commit(batch, &st); err != nil {
+			b.Fatal(err)
+		}
+		batch.Reset()
+	}
+	b.ReportMetric(float64(n*b.N)/b.Elapsed().Seconds(), "edges/s")
+}
+
+// BenchmarkRestore: read back a store of 10^5 edges on 10^4 nodes
+// (dictionary, edges, the window rebuilt from them).
+func BenchmarkRestore(b *testing.B) {
+	s := newStore(b, b.TempDir(), &StoreOptions{Graph: "g", Create: true})
+	defer s.Close()
+	batch := s.NewBatch()
+	for i := range 10000 {
+		batch.PutNode(uint32(i), "acct-"+strconv.Itoa(i), true)
+	}
+	rng := rand.New(rand.NewPCG(2, 2))
+	for range 100000 {
+		batch.PutEdge(uint32(rng.IntN(10000)), uint32(rng.IntN(10000)), 1)
+	}
+	if err := s.Commit(batch, nil); err != nil {
+		b.Fatal(err)
+	}
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := s.Restore(); err != nil {
+			b.Fatal(err)
+		}
 	}
 }

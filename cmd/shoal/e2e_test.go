@@ -181,6 +181,26 @@ func TestEndToEnd(t *testing.T) {
 	if st.Snapshots != 4 {
 		t.Fatalf("%d snapshots, want 4 (hours 0..3)", st.Snapshots)
 	}
+	// shoal query stats --json prints the fields the issue names.
+	out, errs, code := runBin(t, "", "query", "stats", "--http", d.http, "--json")
+	if code != 0 {
+		t.Fatalf("query stats: exit %d: %s", code, errs)
+	}
+	var q map[string]any
+	if err := json.Unmarshal([]byte(out), &q); err != nil {
+		t.Fatal(err)
+	}
+	for _, k := range []string{"nodes", "edges", "total_weight", "applied_seq", "events_applied", "events_rejected", "watermark", "modularity", "communities"} {
+		if _, ok := q[k]; !ok {
+			t.Errorf("query stats lacks %q", k)
+		}
+	}
+	if q["events_applied"].(float64) != float64(len(lines)) || q["edges"].(float64) != float64(len(want)) {
+		t.Errorf("query stats: events_applied %v, edges %v; want %d, %d", q["events_applied"], q["edges"], len(lines), len(want))
+	}
+	if q["watermark"] != "2026-01-01T04:00:00Z" {
+		t.Errorf("watermark %v, want the last event's time 2026-01-01T04:00:00Z", q["watermark"])
+	}
 	// Events on the events stream (the outbox drains after each snapshot).
 	js := jsConnect(t, d.nats)
 	var msgs []eventMsg
