@@ -10,7 +10,9 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"strings"
 	"sync"
+	"syscall"
 	"time"
 
 	"github.com/cockroachdb/pebble/v2"
@@ -368,8 +370,14 @@ func openPebble(dir string, o *StoreOptions, fsys vfs.FS, readOnly bool) (*pebbl
 	return db, nil
 }
 
+// isLockError recognises Pebble's refusal to open a directory locked by
+// another process (flock: EAGAIN) or by this one.
 func isLockError(err error) bool {
-	return bytes.Contains([]byte(err.Error()), []byte("lock"))
+	if errors.Is(err, syscall.EAGAIN) {
+		return true
+	}
+	msg := err.Error()
+	return strings.Contains(msg, "lock held") || strings.Contains(msg, "could not lock") || strings.Contains(msg, "resource temporarily unavailable")
 }
 
 // quietLogger discards Pebble's informational logs; fatal errors still
