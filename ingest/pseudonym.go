@@ -33,6 +33,7 @@ var pseudonymEncoding = base32.NewEncoding("abcdefghijklmnopqrstuvwxyz234567").W
 // without the key a pseudonym cannot be computed from a guessed id. Not
 // safe for concurrent use.
 type Pseudonymizer struct {
+	key   []byte
 	mac   hash.Hash
 	keyID []byte
 	sum   []byte
@@ -45,7 +46,7 @@ func NewPseudonymizer(key []byte) (*Pseudonymizer, error) {
 	if len(key) < MinKeyBytes {
 		return nil, fmt.Errorf("%w: %d bytes, want at least %d (for example 32 bytes from /dev/urandom)", ErrBadKey, len(key), MinKeyBytes)
 	}
-	p := &Pseudonymizer{mac: hmac.New(sha256.New, key)}
+	p := &Pseudonymizer{key: append([]byte(nil), key...), mac: hmac.New(sha256.New, key)}
 	// The key id is the HMAC of a fixed label: it tells keys apart without
 	// revealing them, and is stored so a store is never fed two keys.
 	p.mac.Write([]byte("shoal pseudonymisation key id"))
@@ -64,6 +65,12 @@ func ReadKeyFile(path string) ([]byte, error) {
 	b = bytes.TrimSuffix(b, []byte("\n"))
 	b = bytes.TrimSuffix(b, []byte("\r"))
 	return b, nil
+}
+
+// clone returns an independent pseudonymizer with the same key.
+func (p *Pseudonymizer) clone() *Pseudonymizer {
+	q, _ := NewPseudonymizer(p.key)
+	return q
 }
 
 // KeyID returns the key's fingerprint (8 bytes), recorded in the store.
