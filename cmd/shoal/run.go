@@ -40,7 +40,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	resolution := fs.Float64("resolution", 1, "modularity resolution gamma (> 0)")
 	seed := fs.Uint64("seed", 0, "seed of the random node orders")
 	fullEvery := fs.Int("full-every", 0, "drift guard: a full warm-started pass every N chunks (0: never on a count)")
-	driftBound := fs.Float64("drift-bound", 0.1, "drift guard: a full warm-started pass once the weight changed since the last exceeds this fraction of the total (0: never)")
+	driftBound := fs.Float64("drift-bound", 0.25, "drift guard: a full warm-started pass once the weight changed since the last exceeds this fraction of the total (0: never; the same default as shoal replay)")
 	mf := addMatchFlags(fs)
 	rebuild := fs.String("rebuild", "auto", "how the tracker is rebuilt at start: snapshot (the last snapshot's partition on the stored edges), static (from scratch), auto (snapshot when there is one)")
 	keyFile := fs.String("pseudonymize-key-file", "", "replace node ids at ingest by HMAC-SHA-256 pseudonyms under the key in FILE (at least 16 bytes; fixed when the store is created)")
