@@ -37,7 +37,7 @@ const MaxNodes = math.MaxUint32 - 1
 
 // NewGraph returns a graph with n nodes (all present) and the given edges.
 // Parallel edges are summed. It runs in O(n + len(edges)) and leaves every
-// adjacency run sorted by neighbour id, with room for d/8 + 2 more entries. It panics on an endpoint >= n or a
+// adjacency run sorted by neighbour id. It panics on an endpoint >= n or a
 // weight that is not finite and positive: callers validate input first.
 func NewGraph(n int, edges []Edge) *Graph {
 	if n < 0 || n > MaxNodes {
@@ -70,12 +70,12 @@ func NewGraph(n int, edges []Edge) *Graph {
 		cnt[e.U+1]++
 		cnt[e.V+1]++
 	}
-	// Final runs get headroom (d/8 + 2 entries) so that the first changes
-	// to a node do not move its run; fin holds their offsets.
+	// fin holds the offsets of the final runs: tight, as a static run reads
+	// the slab fastest without gaps (the Tracker adds headroom, see
+	// Graph.reserve).
 	fin := make([]uint32, n+1)
 	for i := 0; i < n; i++ {
-		d := cnt[i+1]
-		fin[i+1] = fin[i] + d + d/8 + 2
+		fin[i+1] = fin[i] + cnt[i+1]
 	}
 	for i := 1; i <= n; i++ {
 		cnt[i] += cnt[i-1]
@@ -284,12 +284,20 @@ func (g *Graph) maybeCompact() {
 	}
 }
 
-// compact rewrites the slab with every run at exactly its live length plus
-// a little headroom.
-func (g *Graph) compact() {
+// reserve gives every run headroom for d/8 + 2 more entries, so that the
+// first changes to a node do not move its run (and, through the slab's
+// growth, copy the whole slab). The Tracker calls it once at start.
+func (g *Graph) reserve() { g.layout(func(d uint32) uint32 { return d + d/8 + 2 }) }
+
+// compact rewrites the slab with every run at its live length plus a
+// little headroom.
+func (g *Graph) compact() { g.layout(func(d uint32) uint32 { return d + d/4 }) }
+
+// layout rewrites the slab with each run given capacity room(deg).
+func (g *Graph) layout(room func(d uint32) uint32) {
 	total := 0
 	for i := range g.deg {
-		total += int(g.deg[i]) + int(g.deg[i])/4
+		total += int(room(g.deg[i]))
 	}
 	nbr := make([]uint32, total)
 	wt := make([]float64, total)
@@ -298,7 +306,7 @@ func (g *Graph) compact() {
 		s, d := g.start[i], g.deg[i]
 		copy(nbr[pos:], g.nbr[s:s+d])
 		copy(wt[pos:], g.wt[s:s+d])
-		c := d + d/4
+		c := room(d)
 		g.start[i], g.capa[i] = pos, c
 		pos += c
 	}

@@ -113,6 +113,7 @@ func NewFrom(g *Graph, o *Options) (*Tracker, error) {
 	}
 	t := &Tracker{o: opts, g: g, s: newSolver(opts.Resolution, opts.Seed), nextID: 1}
 	t.load(detectFrom(g, &t.o, nil, t.nextID))
+	g.reserve()
 	return t, nil
 }
 
@@ -152,6 +153,7 @@ func NewWithPartition(g *Graph, o *Options, membership []uint64, next uint64) (*
 	}
 	t.loadDense(comm, ids)
 	t.splitAll()
+	g.reserve()
 	return t, nil
 }
 
