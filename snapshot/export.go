@@ -66,7 +66,9 @@ func WriteTSV(w io.Writer, s *Snapshot, name func(uint32) string) error {
 	return nil
 }
 
-type jsonHeader struct {
+// HeaderJSON is the header line of the JSON-lines export (schema
+// JSONSchema, kind "header"); shoal replay's --snapshots-out lines extend it.
+type HeaderJSON struct {
 	Schema      string  `json:"schema"`
 	Kind        string  `json:"kind"`
 	ID          uint64  `json:"id"`
@@ -82,6 +84,24 @@ type jsonHeader struct {
 	Edges       int     `json:"edges"`
 	Communities int     `json:"communities"`
 	Note        string  `json:"note"`
+}
+
+// JSON returns the header line of the JSON-lines export for h.
+func (h *Header) JSON() HeaderJSON {
+	return HeaderJSON{
+		Schema: JSONSchema, Kind: "header", ID: h.ID, Graph: h.Graph, Seq: h.Seq,
+		Watermark: RFC3339(h.Watermark), WatermarkMs: h.Watermark, Time: RFC3339(h.Time),
+		Modularity: h.Modularity, Gamma: h.Gamma, TotalWeight: h.TotalWeight,
+		Nodes: h.Nodes, Edges: h.Edges, Communities: h.Communities, Note: Note,
+	}
+}
+
+// HeaderJSON returns the snapshot's header line of the JSON-lines export,
+// counting the communities it holds.
+func (s *Snapshot) HeaderJSON() HeaderJSON {
+	j := s.Header.JSON()
+	j.Communities = len(s.Communities)
+	return j
 }
 
 type jsonCommunity struct {
@@ -104,12 +124,7 @@ func WriteJSONL(w io.Writer, s *Snapshot, name func(uint32) string) error {
 	bw := bufio.NewWriter(w)
 	enc := json.NewEncoder(bw)
 	nf := NameFunc(name)
-	err := enc.Encode(jsonHeader{
-		Schema: JSONSchema, Kind: "header", ID: s.ID, Graph: s.Graph, Seq: s.Seq,
-		Watermark: RFC3339(s.Watermark), WatermarkMs: s.Watermark, Time: RFC3339(s.Time),
-		Modularity: s.Modularity, Gamma: s.Gamma, TotalWeight: s.TotalWeight,
-		Nodes: s.Nodes, Edges: s.Edges, Communities: len(s.Communities), Note: Note,
-	})
+	err := enc.Encode(s.HeaderJSON())
 	var members []string
 	for i := 0; err == nil && i < len(s.Communities); i++ {
 		c := &s.Communities[i]

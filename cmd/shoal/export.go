@@ -178,12 +178,7 @@ func exportSnapshots(w io.Writer, s *ingest.Store, asJSON bool) error {
 	}
 	for _, h := range hs {
 		if asJSON {
-			err = enc.Encode(snapshotLine{
-				Schema: snapshot.JSONSchema, Kind: "header", ID: h.ID, Graph: h.Graph, Seq: h.Seq,
-				Watermark: snapshot.RFC3339(h.Watermark), WatermarkMs: h.Watermark, Time: snapshot.RFC3339(h.Time),
-				Modularity: h.Modularity, Gamma: h.Gamma, TotalWeight: h.TotalWeight, Nodes: h.Nodes, Edges: h.Edges,
-				Communities: h.Communities, Note: snapshot.Note,
-			})
+			err = enc.Encode(h.JSON())
 		} else {
 			_, err = fmt.Fprintf(w, "%d\t%s\t%s\t%d\t%d\t%d\t%d\t%.6f\n", h.ID, snapshot.RFC3339(h.Time), snapshot.RFC3339(h.Watermark),
 				h.Seq, h.Nodes, h.Edges, h.Communities, h.Modularity)

@@ -91,20 +91,7 @@ type replayEvent struct {
 // snapshot JSON-lines export (schema snapshot.JSONSchema) plus what replay
 // knows about the interval.
 type snapshotLine struct {
-	Schema      string  `json:"schema"`
-	Kind        string  `json:"kind"`
-	ID          uint64  `json:"id"`
-	Graph       string  `json:"graph"`
-	Seq         uint64  `json:"seq"`
-	Watermark   string  `json:"watermark"`
-	WatermarkMs int64   `json:"watermark_ms"`
-	Time        string  `json:"time"`
-	Modularity  float64 `json:"modularity"`
-	Gamma       float64 `json:"gamma"`
-	TotalWeight float64 `json:"total_weight"`
-	Nodes       int     `json:"nodes"`
-	Edges       int     `json:"edges"`
-	Communities int     `json:"communities"`
+	snapshot.HeaderJSON
 	// Eligible is the number of communities with at least --min-size
 	// members: those that take part in events.
 	Eligible int `json:"eligible"`
@@ -112,8 +99,7 @@ type snapshotLine struct {
 	Largest int `json:"largest"`
 	// Events is the number of lifecycle events from the previous snapshot
 	// to this one (0 for the first).
-	Events int    `json:"events"`
-	Note   string `json:"note"`
+	Events int `json:"events"`
 }
 
 // replaySummary is the final summary on stderr (text, or JSON with --json).
@@ -518,12 +504,7 @@ func (r *replayer) snapshot(n int) error {
 		r.sum.Lifecycle += nev
 	}
 	if r.sw != nil {
-		line := snapshotLine{
-			Schema: snapshot.JSONSchema, Kind: "header", ID: s.ID, Graph: s.Graph, Seq: s.Seq,
-			Watermark: snapshot.RFC3339(s.Watermark), WatermarkMs: s.Watermark, Time: snapshot.RFC3339(s.Time),
-			Modularity: s.Modularity, Gamma: s.Gamma, TotalWeight: s.TotalWeight, Nodes: s.Nodes, Edges: s.Edges,
-			Communities: len(s.Communities), Eligible: eligible(s, r.minSize), Events: nev, Note: snapshot.Note,
-		}
+		line := snapshotLine{HeaderJSON: s.HeaderJSON(), Eligible: eligible(s, r.minSize), Events: nev}
 		for i := range s.Communities {
 			line.Largest = max(line.Largest, s.Communities[i].Size)
 		}
