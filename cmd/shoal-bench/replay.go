@@ -1,11 +1,9 @@
 package main
 
 import (
-	"bufio"
 	"context"
 	"fmt"
 	"io"
-	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -89,40 +87,11 @@ func runReplay(ctx context.Context, args []string, w io.Writer) error {
 }
 
 func writeStream(path string, n int, jsonl bool) error {
-	g, err := gen.Planted(gen.PlantedOptions{N: 100000, Groups: 500, AvgDegree: 8, Mu: 0.2, Seed: 1})
-	if err != nil {
-		return err
-	}
 	f, err := os.Create(path)
 	if err != nil {
 		return err
 	}
-	bw := bufio.NewWriterSize(f, 1<<20)
-	rng := rand.New(rand.NewPCG(2, 3))
-	ts := int64(1_700_000_000_000)
-	var added []int
-	var line []byte
-	for i := 0; i < n; i++ {
-		ts += int64(rng.IntN(2001))
-		if jsonl && len(added) > 0 && rng.IntN(25) == 0 {
-			k := rng.IntN(len(added))
-			e := g.Edges[added[k]]
-			added[k] = added[len(added)-1]
-			added = added[:len(added)-1]
-			line = fmt.Appendf(line[:0], `{"op":"remove","src":"n%d","dst":"n%d","w":1,"ts":%d}`+"\n", e.U, e.V, ts)
-		} else {
-			k := rng.IntN(len(g.Edges))
-			e := g.Edges[k]
-			added = append(added, k)
-			if jsonl {
-				line = fmt.Appendf(line[:0], `{"op":"add","src":"n%d","dst":"n%d","ts":%d}`+"\n", e.U, e.V, ts)
-			} else {
-				line = fmt.Appendf(line[:0], "n%d\tn%d\t%d\n", e.U, e.V, ts)
-			}
-		}
-		bw.Write(line)
-	}
-	if err := bw.Flush(); err != nil {
+	if err := gen.WriteStream(f, n, jsonl); err != nil {
 		f.Close()
 		return err
 	}

@@ -7,7 +7,6 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
-	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"slices"
@@ -620,48 +619,14 @@ func TestReplayUsage(t *testing.T) {
 	}
 }
 
-// writeReplayBench writes a generated stream of n events: a planted
-// partition (10^5 nodes in 500 groups, mean degree 8, mixing 0.2) whose
-// edges are drawn at random again and again, 96% adds and 4% removes with
-// weight 1 of an edge that was added, one event every 0..2 s. jsonl picks
-// JSON lines (with the removes); otherwise a "src dst ts" edge list of the
-// adds only.
+// writeReplayBench writes gen.WriteStream's stream of n events to path.
 func writeReplayBench(tb testing.TB, path string, n int, jsonl bool) {
 	tb.Helper()
-	g, err := gen.Planted(gen.PlantedOptions{N: 100000, Groups: 500, AvgDegree: 8, Mu: 0.2, Seed: 1})
-	if err != nil {
-		tb.Fatal(err)
-	}
 	f, err := os.Create(path)
 	if err != nil {
 		tb.Fatal(err)
 	}
-	w := bufio.NewWriterSize(f, 1<<20)
-	rng := rand.New(rand.NewPCG(2, 3))
-	ts := int64(1_700_000_000_000)
-	var added []int
-	var line []byte
-	for i := 0; i < n; i++ {
-		ts += int64(rng.IntN(2001))
-		if jsonl && len(added) > 0 && rng.IntN(25) == 0 {
-			k := rng.IntN(len(added))
-			e := g.Edges[added[k]]
-			added[k] = added[len(added)-1]
-			added = added[:len(added)-1]
-			line = fmt.Appendf(line[:0], `{"op":"remove","src":"n%d","dst":"n%d","w":1,"ts":%d}`+"\n", e.U, e.V, ts)
-		} else {
-			k := rng.IntN(len(g.Edges))
-			e := g.Edges[k]
-			added = append(added, k)
-			if jsonl {
-				line = fmt.Appendf(line[:0], `{"op":"add","src":"n%d","dst":"n%d","ts":%d}`+"\n", e.U, e.V, ts)
-			} else {
-				line = fmt.Appendf(line[:0], "n%d\tn%d\t%d\n", e.U, e.V, ts)
-			}
-		}
-		w.Write(line)
-	}
-	if err := w.Flush(); err != nil {
+	if err := gen.WriteStream(f, n, jsonl); err != nil {
 		tb.Fatal(err)
 	}
 	if err := f.Close(); err != nil {
