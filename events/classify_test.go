@@ -13,7 +13,7 @@ import (
 
 // TestScenarios: hand-built cases, each with the exact list of expected
 // events (and nothing else). The one-type cases are the test cases listed in
-// shared/data/SOURCES.md section 5 (synthetic, exact); the partitions are
+// testdata/SOURCES.md section 5 (synthetic, exact); the partitions are
 // given by hand (what a modularity optimiser finds on these graphs), the
 // statistics recomputed from the edge lists. Expected Jaccard values are hand
 // calculations: shared / (|P| + |N| - shared).

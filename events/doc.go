@@ -16,7 +16,7 @@
 // # Rules, applied in this order
 //
 //  1. Eligibility. Only communities with |X| >= MinSize take part (default 3,
-//     from DESIGN.md section 6; below that a "community" is an edge or a
+//     a chosen default; below that a "community" is an edge or a
 //     node). Smaller communities produce no events and count in no overlap.
 //  2. Merge. If two or more P each give N more than half of their own
 //     members, shared(P, N) > |P|/2, that is one merge event: before = those P

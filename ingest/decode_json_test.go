@@ -28,7 +28,7 @@ func TestDecodeJSONAccepts(t *testing.T) {
 		line string
 		want Event
 	}{
-		// The four examples of DESIGN.md section 3.
+		// The four examples of doc.go (Formats).
 		{`{"op":"add","src":"acct-1093","dst":"acct-2210","w":125.0,"ts":"2026-11-30T08:15:02Z"}`,
 			Event{Op: OpAdd, Src: "acct-1093", Dst: "acct-2210", W: 125, HasW: true, TS: ms(t, "2026-11-30T08:15:02Z"), HasTS: true}},
 		{`{"op":"remove","src":"acct-1093","dst":"acct-2210"}`,

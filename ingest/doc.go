@@ -93,6 +93,21 @@
 // Dict.Len() counts it; nodes named only by remove, set 0 or node-remove
 // are not added. The rules are in Load's doc comment.
 //
+// # Sliding window
+//
+// With a window of span d (the daemon's and shoal replay's --window; 0
+// means none) an add at event time ts counts only from ts until ts+d. The
+// [Feed] folds events through a [Window], which keeps each add as an
+// increment with its expiry, so that the weight of an edge is exactly the
+// sum of its increments that have not expired. Expiry is driven by the
+// event-time watermark, the largest event time seen, never by the clock,
+// so replaying a file gives the same weights as the live stream. An event
+// without a time counts at its arrival time when one is known (the daemon
+// passes the JetStream message time), else at the watermark
+// ([Feed.EventTime]). A remove with W consumes increments, oldest expiry
+// first; set replaces them with one. [Window] has the exact rules; the
+// increments are persisted in family 'x' (below).
+//
 // # Store key space
 //
 // The daemon's [Store] is one Pebble database (format version
@@ -119,12 +134,11 @@
 //	's', 'v'                      snapshots and the event outbox (packages
 //	                              snapshot and events)
 //
-// Departures from DESIGN.md section 4, to keep an edge under 32 bytes on
-// disk: an edge is stored once (u <= v), not in both directions, since the
-// daemon holds the adjacency in memory; and there is no name-to-id family
-// 'n', since the dictionary is rebuilt in memory from 'i' at start. Without
-// a window the edges are the increments (one per edge, never expiring), so
-// family 'x' stays empty.
+// Two choices keep an edge under 32 bytes on disk: an edge is stored once
+// (u <= v), not in both directions, since the daemon holds the adjacency in
+// memory; and there is no name-to-id family, since the dictionary is
+// rebuilt in memory from 'i' at start. Without a window the edges are the
+// increments (one per edge, never expiring), so family 'x' stays empty.
 //
 // # Exactly once
 //

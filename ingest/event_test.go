@@ -8,7 +8,7 @@ import (
 )
 
 func TestOpString(t *testing.T) {
-	// The JSON spellings of DESIGN.md section 3.
+	// The JSON spellings of the ops (doc.go, Event model).
 	for op, want := range map[Op]string{OpAdd: "add", OpRemove: "remove", OpSet: "set", OpNodeRemove: "node-remove", 9: "op(9)"} {
 		if op.String() != want {
 			t.Errorf("%d: %q", op, op.String())

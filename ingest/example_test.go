@@ -7,8 +7,8 @@ import (
 	"shoal/ingest"
 )
 
-// The events of DESIGN.md section 3 in one message (invented ids), with
-// one bad line, which is reported on its own.
+// The four example events of doc.go (Formats) in one message (invented
+// ids), with one bad line, which is reported on its own.
 func ExampleDecodeMessage() {
 	msg := `{"op":"add","src":"acct-1093","dst":"acct-2210","w":125.0,"ts":"2026-11-30T08:15:02Z"}
 {"op":"remove","src":"acct-1093","dst":"acct-2210"}

@@ -10,7 +10,7 @@ import (
 // TestFeedIDRules: as in Load, remove, set 0 and node-remove of unknown ids
 // add nothing to the dictionary and change nothing, but still move the
 // watermark, which expires the increments that fall out of the window
-// (DESIGN.md section 3: expiry is driven by the event-time watermark).
+// (doc.go, Sliding window: expiry is driven by the event-time watermark).
 func TestFeedIDRules(t *testing.T) {
 	f := NewFeed(time.Hour)
 	const h = int64(time.Hour / time.Millisecond)

@@ -25,7 +25,7 @@ type Increment struct {
 	W float64
 	// Seq numbers the increments of a window from 1 in order of creation;
 	// it breaks ties between equal expiries and, with Expiry, U and V,
-	// keys the increment in the store (family 'x', DESIGN.md section 4).
+	// keys the increment in the store (family 'x'; doc.go, Store key space).
 	Seq uint64
 }
 
@@ -40,8 +40,8 @@ const residue = 1e-12
 
 const noIdx = ^uint32(0)
 
-// Window is the sliding window of edge increments of DESIGN.md section 3,
-// in memory.
+// Window is the sliding window of edge increments (doc.go, Sliding
+// window), in memory.
 //
 // # Semantics
 //

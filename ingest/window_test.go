@@ -11,9 +11,9 @@ import (
 )
 
 // The expected values in these tests are hand calculations from the window
-// semantics of DESIGN.md section 3 ("the weight of an edge is exactly the
-// sum of its increments inside the window; expiry is driven by the
-// event-time watermark") as the Window doc spells them out.
+// semantics of doc.go (Sliding window: the weight of an edge is exactly
+// the sum of its increments that have not expired; expiry is driven by the
+// event-time watermark), as the Window doc spells them out.
 
 type expired struct {
 	u, v uint32

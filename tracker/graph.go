@@ -10,8 +10,8 @@ import (
 // room to grow in place; when a run is full it moves to the end of the slab
 // and the slab is compacted once the garbage outweighs the live entries.
 // Self-loops are kept apart from the runs: a loop of weight w is stored as
-// self[i] = w and adds 2w to the degree (Newman's convention, DESIGN.md
-// section 5: A_ii = 2w).
+// self[i] = w and adds 2w to the degree (Newman's convention: A_ii = 2w;
+// see doc.go, Objective).
 //
 // Parallel edges accumulate weight. Every mutation keeps the weighted degrees
 // k and the total 2m up to date in place.

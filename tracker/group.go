@@ -94,7 +94,8 @@ func (t *Tracker) groupPass() {
 //	            -b_C - gamma ((tot_C - a_C)^2 - tot_C^2) / 2m
 //
 // with a_C = tot(S_C) and b_C the part of in_C that leaves with S_C (its
-// internal weight and twice its edges to C - S_C); DESIGN.md section 5.
+// internal weight and twice its edges to C - S_C), from Q in doc.go
+// (Objective).
 func (t *Tracker) tryGroup(grp []uint32) {
 	g := t.g
 	gen := t.nextStamp(1)

@@ -5,7 +5,7 @@ import (
 	"slices"
 )
 
-// Stable community ids (DESIGN.md section 5; the rule is also in doc.go):
+// Stable community ids (doc.go, Stable ids, gives the rule in short):
 //
 //  1. Ids are uint64, handed out in increasing order, never reused.
 //  2. After a change, each new community N may inherit the id of an old

@@ -6,10 +6,11 @@ import (
 	"testing"
 )
 
-// TestImports keeps the import direction of DESIGN.md section 2 and
-// STYLE.md section 1: cmd -> ingest, snapshot, events -> tracker, and
-// tracker free of I/O stacks (no NATS, no Pebble, no net, no exec; os only through fmt). The rule and
-// the test follow pebble's TestForbiddenImports.
+// TestImports keeps the import direction given in DEVELOPERS.md (Layout):
+// cmd -> ingest, snapshot, events -> tracker, and tracker free of I/O
+// stacks (no NATS, no Pebble, no net, no exec; os only through fmt; see
+// tracker's doc.go: pure, no I/O). The rule and the test follow pebble's
+// TestForbiddenImports.
 func TestImports(t *testing.T) {
 	rules := map[string][]string{
 		"shoal/tracker":  {"github.com/nats-io", "github.com/cockroachdb/pebble", "net", "os/exec", "shoal/ingest", "shoal/snapshot", "shoal/events"},

@@ -90,9 +90,9 @@ func (s *solver) perm(dst []uint32) {
 }
 
 // moveTol is the smallest gain, relative to the node's degree, worth a move.
-// Gains are computed in units of k_i,C - gamma k_i tot_C / 2m (DESIGN.md
-// section 5; the common factor 1/m is dropped), so the rounding error of a
-// gain is a few ulps of k_i.
+// Gains are computed in units of k_i,C - gamma k_i tot_C / 2m (dQ of
+// doc.go, Static, times m: the common factor 1/m is dropped), so the
+// rounding error of a gain is a few ulps of k_i.
 const moveTol = 1e-10
 
 // moveFast is local moving with a queue (Traag et al. 2019, the "fast local

@@ -1,7 +1,7 @@
 package tracker
 
 // Modularity returns Q of the partition comm of g with resolution gamma
-// (Newman 2006; Reichardt and Bornholdt 2006; DESIGN.md section 5):
+// (Newman 2006; Reichardt and Bornholdt 2006; see doc.go, Objective):
 //
 //	Q = sum over c of [ in_c / 2m - gamma (tot_c / 2m)^2 ]
 //

@@ -13,7 +13,7 @@ import (
 // loopGraph is a gonum weighted undirected graph that also carries
 // self-loops: gonum's simple graphs refuse self edges, and community.Q
 // reads the diagonal through Weight(x, x). The loop weight is handed over
-// doubled (A_ii = 2w), the convention DESIGN.md section 5 fixes.
+// doubled (A_ii = 2w), Newman's convention, which doc.go (Objective) fixes.
 type loopGraph struct {
 	*simple.WeightedUndirectedGraph
 	self map[int64]float64
@@ -70,7 +70,7 @@ func randomPartition(rng *rand.Rand, n, k int) []uint64 {
 }
 
 // TestModularityMatchesGonum checks Modularity against gonum's community.Q
-// (the reference named in DESIGN.md section 9) within 1e-9 on the open
+// (the outside reference for modularity) within 1e-9 on the open
 // datasets of testdata/SOURCES.md, for gamma in {0.5, 1, 2}, on the label
 // partitions, random partitions and our own result.
 func TestModularityMatchesGonum(t *testing.T) {
@@ -173,7 +173,7 @@ func TestModularityRandomGraphs(t *testing.T) {
 }
 
 // TestSelfLoopDegree pins the self-loop convention: a loop of weight w adds
-// 2w to the degree (Newman 2010, Networks, section 6.2; DESIGN.md section 5).
+// 2w to the degree (Newman 2010, Networks, section 6.2; doc.go, Objective).
 func TestSelfLoopDegree(t *testing.T) {
 	g := NewGraph(2, []Edge{{0, 0, 3}, {0, 1, 1}})
 	if k := g.Degree(0); k != 7 {

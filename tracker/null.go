@@ -6,7 +6,7 @@ import (
 )
 
 // Rewire returns a degree-preserving random rewiring of g (the
-// configuration-model null of DESIGN.md section 5): about swaps double-edge
+// configuration-model null; see doc.go, Validation): about swaps double-edge
 // swaps (a,b),(c,d) -> (a,d),(c,b), each edge keeping its weight, skipping
 // swaps that would make a self-loop or a parallel edge (Maslov and Sneppen
 // 2002). Node degrees (edge counts) are preserved exactly; on a weighted

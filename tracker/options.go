@@ -8,7 +8,7 @@ import (
 
 // Options configure the optimiser and the tracker. The zero value works.
 type Options struct {
-	// Resolution is gamma in the modularity of DESIGN.md section 5; gamma > 1
+	// Resolution is gamma in the modularity of doc.go (Objective); gamma > 1
 	// favours smaller communities, gamma < 1 larger ones. Zero means 1.
 	Resolution float64
 	// Seed seeds the random node orders (math/rand/v2 PCG). The same seed,

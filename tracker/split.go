@@ -5,10 +5,11 @@ import (
 	"slices"
 )
 
-// Connectivity after removals (DESIGN.md section 5, "Splits after
-// removals"). A community can only fall apart where it lost something: an
-// internal edge (seeds: both endpoints), or a member that moved out or was
-// removed (seeds: that member's neighbours still inside). Each such event
+// Connectivity after removals (doc.go, Incremental, step 5): a community
+// that may have fallen apart is split into its connected parts. A
+// community can only fall apart where it lost something: an internal edge
+// (seeds: both endpoints), or a member that moved out or was removed
+// (seeds: that member's neighbours still inside). Each such event
 // puts a seed on every side it may have cut off, and a seed that later
 // leaves puts seeds on its own neighbours, so at check time every
 // component of the community holds a seed.

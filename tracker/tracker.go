@@ -453,7 +453,8 @@ func validChange(c Change) error {
 
 // change applies one change to the graph and the slot totals and marks the
 // frontier: the endpoints of a weakened edge inside one community and of a
-// strengthened edge between two (DESIGN.md section 5).
+// strengthened edge between two (the dynamic-frontier rule, Sahu 2024; see
+// doc.go, Incremental).
 func (t *Tracker) change(c Change) {
 	if c.Op == OpRemoveNode {
 		t.removeNode(c.U)

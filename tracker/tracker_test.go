@@ -43,7 +43,7 @@ func randomBatch(rng *rand.Rand, t *Tracker, n, size int) []Change {
 // node removal, re-adding removed nodes), the kept degrees, totals and
 // internal weights equal a recomputation (Check), every community is
 // connected, and Q from the kept totals equals gonum's community.Q on the
-// same graph and partition (the external reference, DESIGN.md section 9).
+// same graph and partition (the outside reference for modularity).
 func TestApplyBookkeeping(t *testing.T) {
 	sequences := 200
 	if testing.Short() {

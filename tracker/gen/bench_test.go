@@ -5,7 +5,7 @@ import (
 	"testing"
 )
 
-// Sizes of the DESIGN.md section 8 comparisons: 10^4 to 10^6 edges at
+// Sizes of the static comparison of cmd/shoal-bench: 10^4 to 10^6 edges at
 // <k> = 20, i.e. N = 10^3 to 10^5. LFR on the standard "S" community sizes
 // at mu = 0.3; planted partition with groups of 50.
 

@@ -16,7 +16,7 @@ import (
 // Checks, from the definition of the benchmark in LFR 2008 (section II):
 // realised mixing within 0.03 of mu, mean degree within 5% of <k>, no
 // degree above k_max, community sizes in range and summing to N, and a
-// simple graph. Tolerances from the brief. tau2 = 1 is the case networkx
+// simple graph. The tolerances are chosen. tau2 = 1 is the case networkx
 // 3.6.1 cannot generate (SOURCES.md section 4).
 func TestLFRStandardSets(t *testing.T) {
 	type set struct {

@@ -12,7 +12,7 @@ import (
 // The model (Condon & Karp 2001; the form with expected degree and mixing is
 // that of the GN benchmark, Girvan & Newman 2002, PNAS 99:7821, and of LFR
 // 2008) makes the expected degree AvgDegree and the expected fraction of
-// external edges per node Mu. Tolerances from the brief: mixing within
+// external edges per node Mu. Chosen tolerances: mixing within
 // 0.02, mean degree within 5%. With N = 10^4 and <k> = 20 the standard error
 // of the mean degree is sqrt(20/10^4) = 0.045 (0.2%) and that of the mean
 // mixing about 0.1/sqrt(10^4) = 0.001, so the tolerances only admit a wrong

@@ -9,7 +9,8 @@ import (
 
 // WriteEdgeList writes the edges of g as "u<TAB>v\n" lines, in the order of
 // g.Edges (sorted by (U, V)). Weights are all 1 and are not written. The
-// plain edge-list form readers of shoal accept (DESIGN.md section 3).
+// plain edge-list form that shoal's readers accept (package ingest, doc.go,
+// Formats).
 func WriteEdgeList(w io.Writer, g *Graph) error {
 	bw := bufio.NewWriterSize(w, 64<<10)
 	var buf []byte
