@@ -90,4 +90,91 @@
 // published; [Pending] lists what lies after it, [MarkPublished] moves it.
 // Publish in key order with the event id as the message id, so a re-publish
 // after a crash is de-duplicated downstream.
+//
+// # History (key family 'h')
+//
+// [History] keeps the lineage of every community id over all observed
+// snapshots, so a birth is not lost when package snapshot drops the
+// snapshot it happened in. Observe folds in one snapshot and the events
+// that lead to it; Put adds the changes to the caller's batch, which also
+// holds the snapshot and its events; LoadHistory rebuilds it at start.
+// Integers in keys are big-endian and fixed width, so byte order is
+// numeric order:
+//
+//	'h' 'c' | community (8)                       community record
+//	'h' 'n' | node (4)                            node record
+//	'h' 'p' | community (8) | snapshot (8)        point
+//	'h' 'r' | community (8) | snapshot (8) | k (1) event reference
+//	'h' 's' | snapshot (8)                        snapshot index entry
+//
+// A community's points are one prefix scan, and so are its references (k
+// numbers the events that touched it in one step, at most four: one merge
+// and one split on each side). Every value starts with the format-version
+// byte (1); integers are uvarints, times (Unix ms, of the snapshot's
+// Header.Time) zig-zag varints; a varint must be in its shortest form and
+// a value must end with its last field, so truncated, padded or overlong
+// bytes are reported, not misread. There is no checksum (Pebble checksums
+// its blocks):
+//
+//	community: version | born | born time | died (0: alive) | died time |
+//	           event count | len(from) from... | len(to) to...
+//	node:      version | community (0: none) | since | since time
+//	point:     version | time | size | lengths | internal | degree
+//	           (lengths: high nibble the bytes of internal, low nibble of
+//	           degree; each float is its IEEE 754 bits, big-endian, with
+//	           trailing zero bytes dropped, so an integral weight below
+//	           2^16 takes at most 3 bytes and 0 takes none)
+//	reference: version | time | type (index in Types) | event id (16 bytes)
+//	index:     version | time | watermark | seq | nodes | edges |
+//	           communities | modularity (8 bytes, IEEE 754, big-endian)
+//
+// Only communities with at least MinSize members are recorded. A record
+// is born the first time its id is eligible and dies when it is not; an id
+// that is eligible again is alive again and keeps its first Born. From and
+// To come from the events: every (before, after) pair of a merge, a split
+// or a continuation whose ids differ (the tracker keeps the id of the
+// heavier part, so a merge adds the absorbed ids to the survivor's From).
+// References are the non-continue events. A point is written only at
+// birth, at death and when size, internal or degree changed (the figures
+// hold from one point to the next); a node key only when the node's
+// community changed (0 when it is in no recorded community). A record is
+// rewritten only when it changed.
+//
+// In memory: the records (their last MaxRefs references and MaxLinks
+// links each), the index, and per dense node id one fixed 24-byte record
+// in a flat slice. Points stay in the store; HistoryOptions.InMemory keeps
+// them in memory too (replay, which has no store), trimmed like the store.
+//
+// Retention, at every Observe: index entries with a time older than Keep
+// before the newest snapshot's are dropped (never the newest); the oldest
+// retained entry is the cut. Dead records that died before the cut go
+// with all their points and references (one delete and two range deletes),
+// and beyond MaxDead the oldest deaths go first. A living community keeps
+// its record and its latest point however old; its other points before
+// the cut go, in the store by one range delete per community once the
+// oldest that may be left is Keep/8 older than the cut (a delete per
+// community per snapshot would pile up tombstones). [History.Points]
+// returns the points at or after the cut and the latest, whether or not
+// the delete has run.
+//
+// Bytes written (keys and values, the worst case in parentheses): a point
+// 18 + 16 typical (51); a community record 10 + 15 typical (1343, with 64
+// links each way); a reference 19 + 24 typical (47), and the delete of the
+// one it pushes out, 19; a node change 6 + 12 typical (37); an index entry
+// 10 + 34 typical (69), deleted later (10). So a community costs nothing in
+// a snapshot where its figures held and no event touched it, one point
+// (at most 51 bytes) when they changed, and in the worst case, with four
+// events in one step, 51 + 1343 + 4*(47+19) = 1658 bytes. [History.Stats]
+// counts the bytes actually written, for Bytes/CommunitySnapshots.
+//
+// [History.WriteJSONL] writes JSON lines: first {"schema":
+// "shoal.history/1", "kind": "index", keep_ms, max_dead, min_size,
+// snapshots: [{id, time_ms, watermark_ms, seq, nodes, edges, communities,
+// modularity}]}, then per community record in id order {"kind":
+// "community", community, born, born_ms, died, died_ms, from, to, events:
+// [{snapshot, time_ms, type, event}], event_count, points: [{snapshot,
+// time_ms, size, internal, degree}]}, then per node ever recorded, in id
+// order, {"kind": "node", node (the external id), community, since,
+// since_ms}. The same snapshots give the same bytes, here and in the
+// store.
 package events

@@ -16,46 +16,23 @@ import (
 	"shoal/tracker"
 )
 
-// ChunkReason says why a chunk of changes is handed to the tracker.
-type ChunkReason uint8
-
-const (
-	// ChunkCount: the event count reached a multiple of ApplyEvery.
-	ChunkCount ChunkReason = iota + 1
-	// ChunkIdle: the stream is idle (nothing pending, or nothing came for
-	// IdleApply); the remainder is applied.
-	ChunkIdle
-	// ChunkFinal: the consumer is stopping; the remainder is applied.
-	ChunkFinal
-)
-
-func (r ChunkReason) String() string {
-	switch r {
-	case ChunkCount:
-		return "count"
-	case ChunkIdle:
-		return "idle"
-	case ChunkFinal:
-		return "final"
-	}
-	return "chunk(" + fmt.Sprint(uint8(r)) + ")"
-}
-
-// Chunk is a run of tracker changes handed to [ConsumerOptions.Apply].
-type Chunk struct {
-	// Changes are the tracker changes of the events of the chunk, in order
-	// (possibly none: a chunk boundary with no effective change).
-	Changes []tracker.Change
-	// Seq is the stream sequence of the message holding the chunk's last
-	// event; Watermark the event-time watermark after it; EventsApplied the
-	// count of good events applied since the store was created, after it.
-	Seq           uint64
-	Watermark     int64
-	EventsApplied uint64
-	Reason        ChunkReason
-	// State is the state the batch will commit. Apply may set
-	// NextCommunity and SnapshotEvents in it.
-	State *State
+// Sink receives the tracker changes of every good event, in stream order,
+// in the consumer's goroutine, before the batch that holds the event
+// commits; what it adds to b commits with it, and so does what it sets in
+// st (the daemon keeps the timeline's position there). The daemon's sink is
+// the timeline (package events/timeline), which cuts the changes into
+// tracker batches and takes the snapshots.
+type Sink interface {
+	// Before is called before an event at time ts is folded: the window
+	// still holds the increments that expire at or before ts.
+	Before(b *Batch, ts int64, st *State) error
+	// Changes is called with the changes of the event once it is folded
+	// (possibly none), and the stream sequence of its message.
+	Changes(b *Batch, seq uint64, chs []tracker.Change, st *State) error
+	// Idle is called when the stream is idle (nothing pending, or nothing
+	// came for IdleApply) after events were folded, and once more with
+	// final set when the consumer stops; a commit follows.
+	Idle(b *Batch, st *State, final bool) error
 }
 
 // CommitInfo describes one committed batch, for [ConsumerOptions.OnCommit].
@@ -94,30 +71,17 @@ type ConsumerOptions struct {
 	// that carry many events make big batches; a Pebble batch much larger
 	// than a memtable is written as a table of its own). Default 16384.
 	MaxBatchEvents int
-	// ApplyEvery: the changes go to the tracker after every ApplyEvery-th
-	// good event, counted from the store's creation (the chunk rule that
-	// shoal replay --apply-every shares). Default 1000.
-	ApplyEvery int
-	// IdleApply: the remainder goes to the tracker when no message came for
-	// this long, even if the server reports more pending. Default 1s. The
-	// remainder also goes as soon as the server reports nothing pending.
+	// IdleApply: Sink.Idle is called when no message came for this long,
+	// even if the server reports more pending. Default 1s. It is also
+	// called as soon as the server reports nothing pending.
 	IdleApply time.Duration
 	// AckWait is the consumer's ack wait. Default 30s.
 	AckWait time.Duration
 	// Pseudonymizer, if set, replaces ids before anything is stored. The
 	// consumer uses copies of it (in its delivery goroutine).
 	Pseudonymizer *Pseudonymizer
-	// Apply receives every chunk, in the consumer's goroutine, before the
-	// batch that holds its events commits; what it adds to b commits with
-	// them. nil drops the changes (benchmarks).
-	Apply func(b *Batch, c *Chunk) error
-	// NextChunk, if set, is called before the first event of a chunk is
-	// folded (the first event after a chunk was handed to Apply, and the
-	// first event after the consumer starts), with that event's time and
-	// the batch and state being built; the tracker then holds every
-	// earlier event. The daemon decides there whether a snapshot is due,
-	// as shoal replay does between chunks.
-	NextChunk func(b *Batch, ts int64, st *State) error
+	// Sink receives the changes (see [Sink]). nil drops them (benchmarks).
+	Sink Sink
 	// OnCommit is called after every commit (and ack), in the committer
 	// goroutine: one call at a time, in commit order.
 	OnCommit func(CommitInfo)
@@ -149,9 +113,6 @@ func (o *ConsumerOptions) EnsureDefaults() {
 	if o.MaxBatchEvents == 0 {
 		o.MaxBatchEvents = 16384
 	}
-	if o.ApplyEvery == 0 {
-		o.ApplyEvery = 1000
-	}
 	if o.IdleApply == 0 {
 		o.IdleApply = time.Second
 	}
@@ -178,9 +139,6 @@ func (o *ConsumerOptions) Validate() error {
 	if o.MaxBatch < 1 || o.MaxBatchEvents < 1 {
 		errs = append(errs, fmt.Errorf("max batch %d or max batch events %d < 1", o.MaxBatch, o.MaxBatchEvents))
 	}
-	if o.ApplyEvery < 1 {
-		errs = append(errs, fmt.Errorf("apply every %d < 1", o.ApplyEvery))
-	}
 	if o.IdleApply < 0 || o.AckWait < time.Second || o.StreamMaxAge < 0 || o.StreamMaxBytes < 0 {
 		errs = append(errs, errors.New("durations and limits must be positive (ack wait at least 1s)"))
 	}
@@ -194,8 +152,6 @@ func (o *ConsumerOptions) Validate() error {
 type ConsumerStats struct {
 	// State is the last committed state.
 	State State
-	// Pending is the number of changes not yet handed to the tracker.
-	Pending int
 	// Duplicates counts messages acknowledged without being applied (at or
 	// below the stored sequence) since start; Repositions the times the
 	// consumer was reset to the stored sequence after a delivery gap.
@@ -208,7 +164,7 @@ type ConsumerStats struct {
 }
 
 // Consumer reads edge events from a JetStream stream into a [Store] through
-// a [Feed] and hands the tracker changes to ConsumerOptions.Apply, with the
+// a [Feed] and hands the tracker changes to ConsumerOptions.Sink, with the
 // exactly-once protocol of doc.go. [Consumer.Run] owns the goroutine that
 // does the work; the other methods may be called from any goroutine.
 type Consumer struct {
@@ -220,7 +176,7 @@ type Consumer struct {
 	// Owned by the Run goroutine.
 	st       State // includes the batch being built
 	changes  []tracker.Change
-	chunkSeq uint64
+	unsent   bool // events were folded since the last Sink.Idle
 	batch    *Batch
 	edges    []edgeWrite // edge weights to write at commit
 	incs     []Increment // window increments to write at commit
@@ -234,7 +190,6 @@ type Consumer struct {
 	bRejects int
 	bDups    int
 	bMsgs    int
-	boundary bool // the next event is the first of a chunk
 	draining bool // Drain: the subscription does not decode
 
 	// The committer goroutine (started and stopped by Run) commits batches
@@ -267,16 +222,15 @@ func NewConsumer(js jetstream.JetStream, s *Store, feed *Feed, present []bool, o
 		return nil, err
 	}
 	c := &Consumer{
-		o:        oo,
-		js:       js,
-		store:    s,
-		feed:     feed,
-		st:       s.State(),
-		batch:    s.NewBatch(),
-		present:  append([]bool(nil), present...),
-		written:  feed.Dict().Len(),
-		window:   s.Meta().Window > 0,
-		boundary: true,
+		o:       oo,
+		js:      js,
+		store:   s,
+		feed:    feed,
+		st:      s.State(),
+		batch:   s.NewBatch(),
+		present: append([]bool(nil), present...),
+		written: feed.Dict().Len(),
+		window:  s.Meta().Window > 0,
 	}
 	c.mu.stats.State = c.st
 	feed.Window().SetObserver(c.observe)
@@ -364,8 +318,8 @@ var errReposition = errors.New("ingest: delivery gap")
 // stream and the durable consumer if absent, positions the consumer at the
 // stored sequence + 1, and from then on: fetch a batch, decode, fold, write
 // it with its state in one synced commit, ack. When ctx is done it stops
-// fetching, finishes and commits the batch in hand, hands the remainder to
-// Apply as a ChunkFinal, commits, and returns nil. Broker outages are
+// fetching, finishes and commits the batch in hand, calls Sink.Idle with
+// final set, commits, and returns nil. Broker outages are
 // ridden out: the connection reconnects and the consumer repositions at
 // the stored sequence when deliveries were lost.
 func (c *Consumer) Run(ctx context.Context) error {
@@ -386,7 +340,7 @@ func (c *Consumer) Run(ctx context.Context) error {
 	}()
 	err := c.loop(ctx)
 	if ctx.Err() != nil && (err == nil || errors.Is(err, context.Canceled) || errors.Is(err, context.DeadlineExceeded)) {
-		if err := c.finish(); err != nil {
+		if err := c.idle(true); err != nil {
 			return err
 		}
 		return c.flush()
@@ -589,13 +543,13 @@ func (c *Consumer) consume(ctx context.Context) error {
 		if len(msgs) == 0 {
 			var err error
 			idle := time.Duration(0)
-			if len(c.changes) > 0 || c.chunkPending() {
+			if c.unsent {
 				idle = c.o.IdleApply
 			}
 			msgs, err = c.sub.next(ctx, msgs[:0], c.o.MaxBatch, idle)
 			switch {
 			case errors.Is(err, errIdle):
-				if err := c.idleChunk(); err != nil {
+				if err := c.idle(false); err != nil {
 					return err
 				}
 				continue
@@ -614,18 +568,13 @@ func (c *Consumer) consume(ctx context.Context) error {
 			return errReposition
 		}
 		msgs = msgs[:copy(msgs, msgs[n:])]
-		if len(msgs) == 0 && c.lastPend == 0 && c.sub.buffered() == 0 && (len(c.changes) > 0 || c.chunkPending()) {
-			if err := c.idleChunk(); err != nil {
+		if len(msgs) == 0 && c.lastPend == 0 && c.sub.buffered() == 0 && c.unsent {
+			if err := c.idle(false); err != nil {
 				return err
 			}
 		}
 	}
 }
-
-// chunkPending reports whether events were applied since the last chunk
-// (their changes may be empty, but the tracker's owner still hears of the
-// boundary).
-func (c *Consumer) chunkPending() bool { return c.chunkSeq != 0 }
 
 // process applies a batch of messages, commits and acks, and returns how
 // many of msgs it took: it ends the batch early once it holds
@@ -690,24 +639,20 @@ func (c *Consumer) apply(d *delivery) error {
 	}
 	for i := range events {
 		ev := &events[i]
-		if c.boundary {
-			c.boundary = false
-			if c.o.NextChunk != nil {
-				if err := c.o.NextChunk(c.batch, c.feed.EventTime(ev, arrival), &c.st); err != nil {
-					return fmt.Errorf("ingest: before the chunk starting at seq %d: %w", seq, err)
-				}
+		if c.o.Sink != nil {
+			if err := c.o.Sink.Before(c.batch, c.feed.EventTime(ev, arrival), &c.st); err != nil {
+				return fmt.Errorf("ingest: before event %d of seq %d: %w", i+1, seq, err)
 			}
 		}
-		n0 := len(c.changes)
-		c.changes = c.feed.Append(c.changes, ev, arrival)
-		c.trackPresence(c.changes[n0:])
+		c.changes = c.feed.Append(c.changes[:0], ev, arrival)
+		c.trackPresence(c.changes)
 		c.st.EventsApplied++
+		c.st.Watermark = c.feed.Watermark()
 		c.bEvents++
-		c.chunkSeq = seq
-		if c.st.EventsApplied%uint64(c.o.ApplyEvery) == 0 {
-			c.st.Watermark = c.feed.Watermark()
-			if err := c.chunk(ChunkCount, seq); err != nil {
-				return err
+		c.unsent = true
+		if c.o.Sink != nil {
+			if err := c.o.Sink.Changes(c.batch, seq, c.changes, &c.st); err != nil {
+				return fmt.Errorf("ingest: event %d of seq %d: %w", i+1, seq, err)
 			}
 		}
 	}
@@ -758,48 +703,15 @@ func (c *Consumer) setPresent(u uint32, p bool) {
 	}
 }
 
-// chunk hands the pending changes to Apply.
-func (c *Consumer) chunk(reason ChunkReason, seq uint64) error {
-	ch := Chunk{
-		Changes:       c.changes,
-		Seq:           seq,
-		Watermark:     c.st.Watermark,
-		EventsApplied: c.st.EventsApplied,
-		Reason:        reason,
-		State:         &c.st,
-	}
-	if c.o.Apply != nil {
-		if err := c.o.Apply(c.batch, &ch); err != nil {
-			return fmt.Errorf("ingest: apply chunk ending at seq %d: %w", seq, err)
+// idle tells the sink that the stream is idle (or, final, that the
+// consumer stops) and commits what it wrote.
+func (c *Consumer) idle(final bool) error {
+	if c.o.Sink != nil {
+		if err := c.o.Sink.Idle(c.batch, &c.st, final); err != nil {
+			return fmt.Errorf("ingest: idle at seq %d: %w", c.st.Applied, err)
 		}
 	}
-	c.changes = c.changes[:0]
-	c.chunkSeq = 0
-	c.boundary = true
-	c.setPending(0)
-	return nil
-}
-
-func (c *Consumer) setPending(n int) {
-	c.mu.Lock()
-	c.mu.stats.Pending = n
-	c.mu.Unlock()
-}
-
-// idleChunk applies the remainder and commits it (with whatever Apply
-// wrote: a snapshot).
-func (c *Consumer) idleChunk() error {
-	if err := c.chunk(ChunkIdle, c.st.Applied); err != nil {
-		return err
-	}
-	return c.commit(nil)
-}
-
-// finish applies the remainder as a final chunk and commits it.
-func (c *Consumer) finish() error {
-	if err := c.chunk(ChunkFinal, c.st.Applied); err != nil {
-		return err
-	}
+	c.unsent = false
 	return c.commit(nil)
 }
 
@@ -828,7 +740,6 @@ func (c *Consumer) commit(last jetstream.Msg) error {
 	}
 	c.written = d.Len()
 	c.flipped = c.flipped[:0]
-	c.setPending(len(c.changes))
 	job := commitJob{b: c.batch, st: c.st, last: last,
 		info: CommitInfo{State: c.st, Messages: c.bMsgs, Events: c.bEvents, Rejects: c.bRejects, Duplicates: c.bDups, Lag: c.lastPend, Snapshots: c.batch.Snapshots}}
 	c.bMsgs, c.bEvents, c.bRejects, c.bDups = 0, 0, 0, 0

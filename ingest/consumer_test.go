@@ -242,22 +242,37 @@ func diffEdges(t testing.TB, got, want map[[2]string]float64, tol float64) {
 }
 
 // harness is a store, a feed, a tracker and a consumer wired as the daemon
-// wires them.
+// wires them, with a sink of its own that applies the changes to the
+// tracker after every applyEvery-th event and when the stream is idle (the
+// daemon's sink is the timeline, tested in cmd/shoal and events/timeline).
 type harness struct {
-	t       testing.TB
-	store   *Store
-	tr      *tracker.Tracker
-	c       *Consumer
-	mu      sync.Mutex
-	chunks  []Chunk
-	cancel  context.CancelFunc
-	done    chan error
-	applied func(*Chunk)
+	t          testing.TB
+	store      *Store
+	tr         *tracker.Tracker
+	c          *Consumer
+	applyEvery uint64
+	mu         sync.Mutex
+	chunks     []chunkRec
+	pending    []tracker.Change
+	cancel     context.CancelFunc
+	done       chan error
+	applied    func()
+}
+
+// chunkRec is one batch the harness applied: after how many events, and
+// whether the stream was idle.
+type chunkRec struct {
+	events uint64
+	idle   bool
 }
 
 func newHarness(t testing.TB, js jetstream.JetStream, dir string, so *StoreOptions, co ConsumerOptions) *harness {
+	return newHarnessEvery(t, js, dir, so, co, 1000)
+}
+
+func newHarnessEvery(t testing.TB, js jetstream.JetStream, dir string, so *StoreOptions, co ConsumerOptions, every uint64) *harness {
 	t.Helper()
-	h := &harness{t: t}
+	h := &harness{t: t, applyEvery: every}
 	so.Graph, so.Create = co.Graph, true
 	h.store = newStore(t, dir, so)
 	r, err := h.store.Restore()
@@ -268,26 +283,43 @@ func newHarness(t testing.TB, js jetstream.JetStream, dir string, so *StoreOptio
 	if err != nil {
 		t.Fatal(err)
 	}
-	co.Apply = func(b *Batch, ch *Chunk) error {
-		if len(ch.Changes) > 0 {
-			if _, err := h.tr.Apply(ch.Changes); err != nil {
-				return err
-			}
-		}
-		ch.State.NextCommunity = h.tr.NextID()
-		h.mu.Lock()
-		h.chunks = append(h.chunks, Chunk{Seq: ch.Seq, EventsApplied: ch.EventsApplied, Reason: ch.Reason, Watermark: ch.Watermark})
-		h.mu.Unlock()
-		if h.applied != nil {
-			h.applied(ch)
-		}
-		return nil
-	}
+	co.Sink = h
 	h.c, err = NewConsumer(js, h.store, RestoreFeed(r.Dict, r.Window), r.Present, &co)
 	if err != nil {
 		t.Fatal(err)
 	}
 	return h
+}
+
+func (h *harness) Before(*Batch, int64, *State) error { return nil }
+
+func (h *harness) Changes(_ *Batch, _ uint64, chs []tracker.Change, st *State) error {
+	h.mu.Lock()
+	h.pending = append(h.pending, chs...)
+	h.mu.Unlock()
+	if st.EventsApplied%h.applyEvery == 0 {
+		return h.flush(st, false)
+	}
+	return nil
+}
+
+func (h *harness) Idle(_ *Batch, st *State, _ bool) error { return h.flush(st, true) }
+
+func (h *harness) flush(st *State, idle bool) error {
+	h.mu.Lock()
+	defer h.mu.Unlock()
+	if len(h.pending) > 0 {
+		if _, err := h.tr.Apply(h.pending); err != nil {
+			return err
+		}
+	}
+	h.pending = h.pending[:0]
+	st.NextCommunity = h.tr.NextID()
+	h.chunks = append(h.chunks, chunkRec{events: st.EventsApplied, idle: idle})
+	if h.applied != nil {
+		h.applied()
+	}
+	return nil
 }
 
 func (h *harness) start() {
@@ -321,7 +353,10 @@ func (h *harness) waitApplied(seq uint64) {
 	h.t.Helper()
 	waitFor(h.t, 60*time.Second, fmt.Sprintf("stream seq %d applied", seq), func() bool {
 		s := h.c.Stats()
-		return s.State.Applied >= seq && s.Pending == 0
+		h.mu.Lock()
+		n := len(h.pending)
+		h.mu.Unlock()
+		return s.State.Applied >= seq && n == 0
 	})
 }
 
@@ -359,7 +394,7 @@ func TestConsumerFold(t *testing.T) {
 			ensureIngestStream(t, js, "g")
 			evs := genEvents(rand.New(rand.NewPCG(uint64(per), 9)), 3000, 150)
 			last := publishAll(t, js, "shoal.edges.g", messages(evs, per))
-			h := newHarness(t, js, t.TempDir(), &StoreOptions{}, ConsumerOptions{Graph: "g", ApplyEvery: 250, MaxBatch: 100})
+			h := newHarnessEvery(t, js, t.TempDir(), &StoreOptions{}, ConsumerOptions{Graph: "g", MaxBatch: 100}, 250)
 			h.start()
 			h.waitApplied(last)
 			if err := h.stop(); err != nil {
@@ -372,8 +407,8 @@ func TestConsumerFold(t *testing.T) {
 			diffEdges(t, storedByName(t, h.store), foldByName(t, evs), 0)
 			h.checkTracker()
 			for i, ch := range h.chunks {
-				if ch.Reason == ChunkCount && ch.EventsApplied%250 != 0 {
-					t.Fatalf("chunk %d of reason count ends at event %d", i, ch.EventsApplied)
+				if !ch.idle && ch.events%250 != 0 {
+					t.Fatalf("chunk %d of reason count ends at event %d", i, ch.events)
 				}
 			}
 			if n := len(h.chunks); n < 3000/250 {
@@ -395,9 +430,9 @@ func TestConsumerRedeliveryIsSkipped(t *testing.T) {
 	ensureIngestStream(t, js, "g")
 	evs := genEvents(rand.New(rand.NewPCG(3, 3)), 60, 20)
 	last := publishAll(t, js, "shoal.edges.g", messages(evs, 1))
-	h := newHarness(t, js, t.TempDir(), &StoreOptions{}, ConsumerOptions{Graph: "g", ApplyEvery: 20, MaxBatch: 100, AckWait: time.Second})
+	h := newHarnessEvery(t, js, t.TempDir(), &StoreOptions{}, ConsumerOptions{Graph: "g", MaxBatch: 100, AckWait: time.Second}, 20)
 	var once sync.Once
-	h.applied = func(*Chunk) {
+	h.applied = func() {
 		once.Do(func() {
 			waitFor(t, 30*time.Second, "a redelivery", func() bool {
 				ci, err := js.Consumer(context.Background(), "SHOAL_EDGES_g", "shoal-g")
@@ -476,7 +511,7 @@ func TestConsumerCrash(t *testing.T) {
 	for _, p := range points {
 		count := 0
 		var clone *vfs.MemFS
-		h := newHarness(t, js, "store", &StoreOptions{FS: fsys}, ConsumerOptions{Graph: "g", MaxBatch: 50, ApplyEvery: 100,
+		h := newHarness(t, js, "store", &StoreOptions{FS: fsys}, ConsumerOptions{Graph: "g", MaxBatch: 50,
 			Failpoint: func(name string) error {
 				if name == p.name {
 					if count++; count == p.n {
@@ -545,7 +580,7 @@ func TestConsumerBrokerOutage(t *testing.T) {
 
 // badCorpus is one message per kind of bad input, with the reject code and
 // field it must get. The codes follow the decoder's sentinels (errors.go)
-// and the event model of DESIGN.md section 3.
+// and the event model of doc.go (Event model).
 var badCorpus = []struct {
 	msg, code, field string
 }{
@@ -699,7 +734,7 @@ func TestConsumerWindow(t *testing.T) {
 		add("n"+strconv.Itoa(rng.IntN(30)), "n"+strconv.Itoa(rng.IntN(30)), float64(1+rng.IntN(3)), ts)
 	}
 	last := publishAll(t, js, "shoal.edges.w", messages(evs, 5))
-	h := newHarness(t, js, t.TempDir(), &StoreOptions{Window: time.Hour}, ConsumerOptions{Graph: "w", ApplyEvery: 300})
+	h := newHarnessEvery(t, js, t.TempDir(), &StoreOptions{Window: time.Hour}, ConsumerOptions{Graph: "w"}, 300)
 	h.start()
 	h.waitApplied(last)
 	if err := h.stop(); err != nil {

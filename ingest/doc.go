@@ -120,7 +120,10 @@
 //	                              "graph" (the name), "window" (span in ms,
 //	                              8 bytes), "pseudonym" (key id, 8 bytes, or
 //	                              empty), "state" ([State]: version byte,
-//	                              uvarints; the watermark a zig-zag varint)
+//	                              uvarints; the watermark a zig-zag varint),
+//	                              "set/<name>" (settings the daemon keeps:
+//	                              "set/snapshot-every" ms, "set/snapshot-
+//	                              every-events", 8 bytes each)
 //	'i' id (4)                    flags (1 byte: 1 = node absent) | external id
 //	'e' u (4) v (4), u <= v       weight of the undirected edge
 //	'x' expiry (8) u (4) v (4) seq (8)
@@ -160,9 +163,10 @@
 //     goroutine, ahead of the fold) and its good events go through the
 //     [Feed] (dictionary, window) into tracker changes; each bad line, and a
 //     message with no event at all, becomes a [Reject] in the outbox and is
-//     counted. After every ApplyEvery-th good event (counted from the
-//     store's creation) the changes are handed to ConsumerOptions.Apply,
-//     which may add a snapshot and its events to the same batch.
+//     counted. Each good event's time goes to [Sink].Before before it is
+//     folded and its changes to [Sink].Changes after; the sink (the
+//     daemon's timeline) may add a snapshot, its events and its history to
+//     the same batch.
 //  5. The new dictionary entries, presence changes, edge weights (in key
 //     order), increments, rejects, and the state (last sequence,
 //     watermark, counters) go into one Pebble batch, which the committer

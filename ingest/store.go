@@ -42,6 +42,7 @@ const (
 	metaWindow    = "window"
 	metaPseudonym = "pseudonym"
 	metaState     = "state"
+	metaSetting   = "set/"
 )
 
 // Store errors.
@@ -514,6 +515,39 @@ func (s *Store) writeMeta() error {
 	return nil
 }
 
+// Setting returns the value of a named setting the daemon keeps with the
+// store (the snapshot schedule: the settings of a store are kept across
+// restarts so that a restart without the flags keeps doing the same), and
+// whether it is set. Settings live under 'm' "set/" + name.
+func (s *Store) Setting(name string) ([]byte, bool, error) {
+	return get(s.db, metaKey(metaSetting+name))
+}
+
+// PutSetting records a named setting (synced).
+func (s *Store) PutSetting(name string, v []byte) error {
+	if err := s.db.Set(metaKey(metaSetting+name), v, pebble.Sync); err != nil {
+		return fmt.Errorf("ingest: store setting %s: %w", name, err)
+	}
+	return nil
+}
+
+// SetWindow changes the window span of the store: adds folded from now on
+// count for the new span (reopen, or restore, to use it), increments
+// already stored keep their expiry. A window cannot be turned on or off:
+// a store without one keeps no increments.
+func (s *Store) SetWindow(span time.Duration) error {
+	if (span <= 0) != (s.meta.Window <= 0) {
+		return fmt.Errorf("%w: window %v -> %v: a window cannot be turned on or off on an existing store", ErrStoreMismatch, windowText(s.meta.Window), windowText(span))
+	}
+	var win [8]byte
+	binary.BigEndian.PutUint64(win[:], uint64(span.Milliseconds()))
+	if err := s.db.Set(metaKey(metaWindow), win[:], pebble.Sync); err != nil {
+		return fmt.Errorf("ingest: store: set window: %w", err)
+	}
+	s.meta.Window = span
+	return nil
+}
+
 // Meta returns what the store recorded at creation.
 func (s *Store) Meta() Meta { return s.meta }
 
@@ -727,39 +761,6 @@ func (r *Restored) Graph() *tracker.Graph {
 		}
 	}
 	return g
-}
-
-// Tracker builds the tracker over the restored graph. With a nil
-// membership it runs a full static pass (tracker.NewFrom). Otherwise it
-// starts from membership (a snapshot's, one community id per node id,
-// tracker.NoCommunity for none): nodes present now but in no community
-// there (added since the snapshot) start as communities of their own with
-// fresh ids from next on, in node order; communities that edges removed
-// since have disconnected are split (tracker.NewWithPartition). Both are
-// deterministic.
-func (r *Restored) Tracker(o *tracker.Options, membership []uint64, next uint64) (*tracker.Tracker, error) {
-	g := r.Graph()
-	if membership == nil {
-		return tracker.NewFrom(g, o)
-	}
-	mem := make([]uint64, g.Len())
-	for i := range mem {
-		mem[i] = tracker.NoCommunity
-		if i < len(membership) && g.Has(uint32(i)) {
-			mem[i] = membership[i]
-		}
-		if mem[i] != tracker.NoCommunity {
-			next = max(next, mem[i]+1)
-		}
-	}
-	next = max(next, 1)
-	for i := range mem {
-		if g.Has(uint32(i)) && mem[i] == tracker.NoCommunity {
-			mem[i] = next
-			next++
-		}
-	}
-	return tracker.NewWithPartition(g, o, mem, next)
 }
 
 // Restore reads the dictionary, the edges and the window increments back.

@@ -16,8 +16,6 @@ import (
 	"time"
 
 	"github.com/cockroachdb/pebble/v2"
-
-	"shoal/tracker"
 )
 
 func newStore(t testing.TB, dir string, o *StoreOptions) *Store {
@@ -243,55 +241,6 @@ func TestStoreNotShoal(t *testing.T) {
 	db.Close()
 	if _, err := OpenStore(dir, &StoreOptions{Graph: "g", Create: true}); !errors.Is(err, ErrNotStore) {
 		t.Fatalf("%v, want ErrNotStore", err)
-	}
-}
-
-// TestRestoredTracker: from scratch the tracker runs a static pass; from a
-// membership, nodes missing from it become communities of their own with
-// fresh ids, and a community the edges no longer connect is split
-// (tracker.NewWithPartition): two triangles {0,1,2} and {3,4,5} joined by
-// nothing, given as one community 7, come back as two; node 6, new, gets
-// an id above next.
-func TestRestoredTracker(t *testing.T) {
-	s := newStore(t, t.TempDir(), &StoreOptions{Graph: "g", Create: true})
-	defer s.Close()
-	b := s.NewBatch()
-	for i := range 8 {
-		b.PutNode(uint32(i), "n"+strconv.Itoa(i), i != 7)
-	}
-	for _, e := range [][2]uint32{{0, 1}, {1, 2}, {0, 2}, {3, 4}, {4, 5}, {3, 5}, {5, 6}} {
-		b.PutEdge(e[0], e[1], 1)
-	}
-	if err := s.Commit(b, nil); err != nil {
-		t.Fatal(err)
-	}
-	r, err := s.Restore()
-	if err != nil {
-		t.Fatal(err)
-	}
-	static, err := r.Tracker(&tracker.Options{}, nil, 0)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if static.NumCommunities() != 2 || static.Community(0) == static.Community(3) {
-		t.Fatalf("static: %d communities", static.NumCommunities())
-	}
-	mem := []uint64{7, 7, 7, 7, 7, 7, tracker.NoCommunity, tracker.NoCommunity}
-	warm, err := r.Tracker(&tracker.Options{}, mem, 20)
-	if err != nil {
-		t.Fatal(err)
-	}
-	if err := warm.Check(); err != nil {
-		t.Fatal(err)
-	}
-	if warm.Community(0) == warm.Community(3) || warm.Community(0) != warm.Community(1) || warm.Community(3) != warm.Community(4) {
-		t.Fatalf("the disconnected community was not split: %d %d %d %d", warm.Community(0), warm.Community(1), warm.Community(3), warm.Community(4))
-	}
-	if c := warm.Community(6); c < 20 || c == warm.Community(5) {
-		t.Fatalf("new node 6 has community %d, want a fresh id >= 20 of its own", c)
-	}
-	if warm.Community(7) != tracker.NoCommunity {
-		t.Fatal("absent node 7 has a community")
 	}
 }
 

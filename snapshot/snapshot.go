@@ -26,8 +26,11 @@ type Header struct {
 	// Watermark is the event-time watermark (largest event time seen), in
 	// Unix milliseconds.
 	Watermark int64
-	// Time is the wall-clock time at which the snapshot was taken, in Unix
-	// milliseconds.
+	// Time is the snapshot's time in event time (Unix milliseconds): the
+	// schedule boundary T it was taken at (it holds exactly the events
+	// before T), or the watermark for a snapshot taken on request or at
+	// the end of an input. Never the wall clock, so that a replay and the
+	// daemon give the same snapshots for the same input.
 	Time int64
 	// Modularity is the modularity of the partition at resolution Gamma.
 	Modularity float64

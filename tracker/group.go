@@ -152,12 +152,31 @@ func (t *Tracker) tryGroup(grp []uint32) {
 	if gain <= moveTol*totS {
 		return
 	}
+	// Stable ids (ids.go, rule 3): the group keeps the id of the community
+	// that brings it the most weight when that is at least half of the
+	// community's own weight (a group that grew around one community is
+	// that community, grown); what is left of it takes the fresh id.
+	best := 0
+	for i := range losses {
+		if a, b := losses[i], losses[best]; a.a > b.a || (a.a == b.a && t.id[a.c] < t.id[b.c]) {
+			best = i
+		}
+	}
+	bc := losses[best].c
+	bID, inherit := t.id[bc], 2*losses[best].a >= t.tot[bc]
 	ns := t.newSlot()
 	t.heat(ns)
 	for _, u := range grp {
 		t.moveNode(u, ns)
 	}
 	t.res.Moves += len(grp)
+	switch {
+	case !inherit:
+	case t.size[bc] == 0:
+		t.id[ns] = bID // the slot was released and its id retired with it
+	default:
+		t.id[ns], t.id[bc] = bID, t.id[ns]
+	}
 }
 
 // moveNode moves node u to slot to, keeping every total and recording the

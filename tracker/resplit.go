@@ -11,8 +11,19 @@ import (
 // moving cannot repair (see resplitPass).
 const resplitLoss = 0.2
 
+// resplitGrowth is the factor by which a community's internal weight must
+// grow, since the pass last looked at it, before the pass looks again.
+// Chosen default: a ring that forms edge by edge next to a group, a few
+// edges a batch, is glued to the group by local moving (each of its nodes
+// is better off with the others than alone, and the others already sit in
+// the group), and only a look at the whole community pulls it apart; at
+// 1.25 a community is looked at O(log) times as it grows, each look costing
+// its volume.
+const resplitGrowth = 1.25
+
 // resplitPass re-optimises, from singletons, every community that lost a
-// large share of its internal weight in the batch. Local moving cannot
+// large share of its internal weight in the batch, or that grew by a large
+// factor since the pass last looked at it (resplitGrowth). Local moving cannot
 // split a community that is no longer a good one as long as each member is
 // still better inside it than alone: when a sliding window expires most of
 // a graph, the nodes left behind can all sit in one community of Q = 0, a
@@ -29,10 +40,15 @@ func (t *Tracker) resplitPass() {
 	for _, c := range t.hot {
 		lost := t.lost[c]
 		t.lost[c] = 0
-		if t.size[c] < 4 || lost < resplitLoss*(t.in[c]+lost) {
+		if t.size[c] < 4 {
+			continue
+		}
+		grew := t.in[c] > resplitGrowth*t.checked[c]
+		if lost < resplitLoss*(t.in[c]+lost) && !grew {
 			continue
 		}
 		t.resplit(c)
+		t.checked[c] = t.in[c]
 	}
 }
 
@@ -114,6 +130,9 @@ func (t *Tracker) resplit(c uint32) {
 		if to := slot[comm[li]]; to != c {
 			t.moveNode(u, to)
 		}
+	}
+	for _, s := range slot {
+		t.checked[s] = t.in[s]
 	}
 	t.res.Splits += k - 1
 }

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 )
 
 // Op is the kind of a Change.
@@ -86,6 +87,7 @@ type Tracker struct {
 	joins    [][2]uint32 // endpoints of edges added or made heavier between communities
 	hot      []uint32    // slots touched by the batch
 	lost     []float64   // internal weight each slot lost to the batch's changes
+	checked  []float64   // each slot's internal weight when the resplit pass last looked at it
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
 	local    []uint32 // node -> index in the frontier subgraph
@@ -195,6 +197,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 	t.hotMark = make([]bool, c)
 	t.lost = make([]float64, c)
 	t.s.grow(max(n, c) + 1)
+	defer func() { t.checked = slices.Clone(t.in) }()
 	for len(t.mark) < n {
 		t.mark = append(t.mark, false)
 		t.stamp = append(t.stamp, 0)
@@ -272,8 +275,9 @@ func (t *Tracker) newSlot() uint32 {
 		t.id = append(t.id, 0)
 		t.hotMark = append(t.hotMark, false)
 		t.lost = append(t.lost, 0)
+		t.checked = append(t.checked, 0)
 	}
-	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s] = noSlot, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	return s
@@ -291,6 +295,7 @@ func (t *Tracker) reserveSlots(k int) {
 		t.id = append(t.id, NoCommunity)
 		t.hotMark = append(t.hotMark, false)
 		t.lost = append(t.lost, 0)
+		t.checked = append(t.checked, 0)
 		t.free = append(t.free, s)
 	}
 	t.s.grow(len(t.head) + 1)
@@ -305,7 +310,7 @@ func (t *Tracker) takeSlot() uint32 {
 	}
 	s := t.free[n-1]
 	t.free = t.free[:n-1]
-	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s] = noSlot, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	t.heat(s)
@@ -429,6 +434,49 @@ func (t *Tracker) Apply(batch []Change) (Result, error) {
 		t.res.Full = true
 	}
 	return t.res, nil
+}
+
+// Revisit re-optimises around the given nodes as if a batch had touched
+// them (local moving from them, the connectivity checks, the merge pass
+// over pairs of their communities joined by an edge), without changing the
+// graph. A tracker rebuilt from an old partition on a graph that changed
+// since calls it for the nodes of the communities that changed and the
+// nodes the partition did not know, which would otherwise stay as they
+// were until an edge of theirs changes again. Absent nodes are skipped.
+func (t *Tracker) Revisit(nodes []uint32) Result {
+	t.res = Result{}
+	for _, u := range nodes {
+		if int(u) < len(t.comm) && t.g.Has(u) {
+			t.markNode(u)
+			t.heat(t.comm[u])
+		}
+	}
+	// Pairs of revisited communities joined by an edge go to the merge
+	// pass, as the edges a batch adds between communities do: the changes
+	// that joined them are not known here, only that both sides changed.
+	g := t.g
+	seen := map[[2]uint32]bool{}
+	for _, u := range t.frontier {
+		cu := t.comm[u]
+		st, d := g.start[u], g.deg[u]
+		for p := st; p < st+d; p++ {
+			v := g.nbr[p]
+			cv := t.comm[v]
+			if !t.mark[v] || cv == cu {
+				continue
+			}
+			k := [2]uint32{min(cu, cv), max(cu, cv)}
+			if !seen[k] {
+				seen[k] = true
+				t.joins = append(t.joins, [2]uint32{u, v})
+			}
+		}
+	}
+	t.res.Frontier = len(t.frontier)
+	if len(t.frontier) > 0 {
+		t.reoptimise()
+	}
+	return t.res
 }
 
 func validChange(c Change) error {

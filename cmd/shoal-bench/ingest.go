@@ -12,13 +12,13 @@ import (
 	"runtime/pprof"
 	"strconv"
 	"strings"
-	"sync/atomic"
 	"time"
 
 	"github.com/nats-io/nats-server/v2/server"
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
 
+	"shoal/events/timeline"
 	"shoal/ingest"
 	"shoal/snapshot"
 	"shoal/tracker"
@@ -207,7 +207,7 @@ func ingestOne(ctx context.Context, js jetstream.JetStream, dir string, run, n, 
 		return nil, err
 	}
 	graph := "bench" + strconv.Itoa(run)
-	co := ingest.ConsumerOptions{Graph: graph, ApplyEvery: cfg.applyEvery}
+	co := ingest.ConsumerOptions{Graph: graph}
 	co.EnsureDefaults()
 	if _, err := ingest.EnsureStream(ctx, js, co.StreamConfig()); err != nil {
 		return nil, err
@@ -256,19 +256,14 @@ func ingestOne(ctx context.Context, js jetstream.JetStream, dir string, run, n, 
 		return nil, err
 	}
 	commits := 0
-	// As in the daemon: the tracker applies chunks in a goroutine of its
-	// own while the consumer goes on.
-	var next atomic.Uint64
-	q := ingest.NewChunkQueue(0, func(chs []tracker.Change) error {
-		_, err := tr.Apply(chs)
-		next.Store(tr.NextID())
-		return err
-	})
-	defer q.Close()
-	co.Apply = func(_ *ingest.Batch, ch *ingest.Chunk) error {
-		ch.State.NextCommunity = next.Load()
-		return q.Push(ch.Changes)
+	// As in the daemon: the timeline applies batches in a goroutine of its
+	// own while the consumer goes on (no snapshots here).
+	tl, err := timeline.New(timeline.Config{Graph: graph, ApplyEvery: cfg.applyEvery, Async: true}, tr, nil, nil, timeline.NewState(), nil)
+	if err != nil {
+		return nil, err
 	}
+	defer tl.Close()
+	co.Sink = benchSink{tl}
 	co.OnCommit = func(ingest.CommitInfo) { commits++ }
 	c, err := ingest.NewConsumer(js, st, ingest.RestoreFeed(r.Dict, r.Window), r.Present, &co)
 	if err != nil {
@@ -287,7 +282,7 @@ func ingestOne(ctx context.Context, js jetstream.JetStream, dir string, run, n, 
 	var full float64
 	for {
 		s := c.Stats()
-		if s.State.Applied >= last && s.Pending == 0 && q.Pending() == 0 {
+		if s.State.Applied >= last && tl.Stats().Pending == 0 {
 			full = time.Since(t0).Seconds()
 			break
 		}
@@ -310,6 +305,19 @@ func ingestOne(ctx context.Context, js jetstream.JetStream, dir string, run, n, 
 	row.Ratio = row.IngestRate / row.DrainRate
 	return row, nil
 }
+
+// benchSink drives the timeline from the consumer, as the daemon's does.
+type benchSink struct{ tl *timeline.Timeline }
+
+func (s benchSink) Before(_ *ingest.Batch, ts int64, _ *ingest.State) error { return s.tl.At(ts) }
+
+func (s benchSink) Changes(_ *ingest.Batch, _ uint64, chs []tracker.Change, st *ingest.State) error {
+	err := s.tl.Add(chs)
+	st.NextCommunity = s.tl.NextID()
+	return err
+}
+
+func (s benchSink) Idle(*ingest.Batch, *ingest.State, bool) error { return s.tl.Flush() }
 
 // restartOne writes a store of about e edges (a planted-partition graph,
 // external ids "acct-<n>") with one snapshot, compacts it, and measures a
@@ -395,7 +403,7 @@ func restartOne(dir string, e int) (*restartRow, error) {
 	}
 	row.OpenReadS, row.EdgeKeyValues = read, len(r.Edges)
 	t0 := time.Now()
-	trS, err := r.Tracker(&tracker.Options{}, nil, 0)
+	trS, _, err := timeline.Rebuild(r.Graph(), &tracker.Options{}, nil, 0, timeline.RebuildStatic)
 	if err != nil {
 		return nil, err
 	}
@@ -412,7 +420,7 @@ func restartOne(dir string, e int) (*restartRow, error) {
 	if err != nil {
 		return nil, err
 	}
-	trP, err := r.Tracker(&tracker.Options{}, latest.Membership(r.Dict.Len()), r.State.NextCommunity)
+	trP, _, err := timeline.Rebuild(r.Graph(), &tracker.Options{}, latest, r.State.NextCommunity, timeline.RebuildSnapshot)
 	if err != nil {
 		return nil, err
 	}

@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/binary"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -25,6 +26,8 @@ import (
 	"github.com/nats-io/nats.go/jetstream"
 
 	"shoal/events"
+	"shoal/events/publish"
+	"shoal/events/timeline"
 	"shoal/ingest"
 	"shoal/snapshot"
 	"shoal/tracker"
@@ -47,7 +50,10 @@ type daemonOptions struct {
 	rejectsSubject string
 
 	httpAddr       string
-	trigger        snapshot.Trigger
+	schedule       timeline.Schedule
+	scheduleSet    bool // given on the command line (else the store's, else the default)
+	applyEvery     int
+	history        time.Duration
 	snapshotKeep   int
 	snapshotOnExit bool
 	topts          tracker.Options
@@ -60,13 +66,15 @@ type daemonOptions struct {
 	deriveNames func(graph string)
 }
 
-// daemon is one running `shoal run`. The consumer goroutine (Run's caller)
-// owns the tracker, the feed, the previous snapshot and the trigger; the
-// HTTP handlers read the tracker under mu, which the consumer holds while
-// it changes the tracker.
+// daemon is one running `shoal run`.
 //
-// Goroutines: the consumer (the caller of run), the outbox publisher, the
-// HTTP server, the signal watcher; run starts and stops all of them.
+// Goroutines: the consumer (the caller of run) owns the feed and drives the
+// timeline (d.tl) through ingestSink; the timeline's own goroutine applies
+// the batches to the tracker (timeline.Config.Async); the committer (the
+// consumer's) commits and calls onCommit; the outbox publisher, the HTTP
+// server and the signal watcher. run starts and stops all of them. HTTP
+// handlers read the tracker through Timeline.Read (a read lock the batch
+// goroutine takes for writing) and the rest through atomics.
 type daemon struct {
 	o       *daemonOptions
 	log     *slog.Logger
@@ -80,29 +88,20 @@ type daemon struct {
 	natsURL string // where clients reach the server
 
 	restored *ingest.Restored // between restore and the consumer's creation
-
-	mu struct {
-		sync.Mutex
-		tr *tracker.Tracker
-	}
+	tl       *timeline.Timeline
 
 	// Owned by the consumer goroutine.
-	trig       snapshot.Trigger
-	prev       *snapshot.Snapshot
-	lastID     uint64
-	mem        []uint64
-	trackerSeq uint64
+	batch   *ingest.Batch // the batch the timeline's snapshots go into
+	lastSeq uint64        // stream sequence of the last event folded
 
-	queue  *ingest.ChunkQueue // chunks on their way to the tracker
-	nextID atomic.Uint64      // the tracker's NextID after the last chunk
-
-	lastSnap  atomic.Pointer[snapshot.Header]
-	snapshots atomic.Int64
-	outboxErr atomic.Pointer[string]
-	wake      chan struct{}
-	started   time.Time
-	ready     atomic.Bool
-	crash     *failpoints
+	trimBefore atomic.Uint64 // events of snapshots below this id are past --history
+	lastSnap   atomic.Pointer[snapshot.Header]
+	snapshots  atomic.Int64
+	outboxErr  atomic.Pointer[string]
+	wake       chan struct{}
+	started    time.Time
+	ready      atomic.Bool
+	crash      *failpoints
 }
 
 // runDaemon runs the daemon until ctx is done (the first SIGINT or
@@ -131,11 +130,15 @@ func runDaemon(ctx context.Context, e *env, o *daemonOptions, log *slog.Logger) 
 	}
 	defer d.stopNATS()
 
+	defer func() {
+		if cerr := d.tl.Close(); cerr != nil {
+			err = errors.Join(err, cerr)
+		}
+	}()
 	co := o.consumer
 	co.Graph = d.o.graph
 	co.Pseudonymizer = d.pseudo
-	co.Apply = d.apply
-	co.NextChunk = d.nextChunk
+	co.Sink = ingestSink{d}
 	co.OnCommit = d.onCommit
 	co.OnError = func(err error) { log.Warn("ingest: recovering", "err", err) }
 	co.Failpoint = func(name string) error { d.crash.hit(name); return nil }
@@ -143,9 +146,6 @@ func runDaemon(ctx context.Context, e *env, o *daemonOptions, log *slog.Logger) 
 	if err != nil {
 		return usageError{err}
 	}
-	d.nextID.Store(d.mu.tr.NextID())
-	d.queue = ingest.NewChunkQueue(0, d.applyTracker)
-	defer d.queue.Close()
 	d.restored = nil
 
 	var hs *http.Server
@@ -248,14 +248,24 @@ func (d *daemon) openStore() error {
 		return err
 	}
 	dir := ingest.StoreDir(o.data)
+	newWindow := false
 	if s, err := ingest.OpenStore(dir, &ingest.StoreOptions{ReadOnly: true, AnyWindow: true, AnyKey: true}); err == nil {
 		m := s.Meta()
 		s.Close()
 		if o.graph == "" {
 			o.graph = m.Graph
 		}
-		if !o.windowSet {
+		switch {
+		case !o.windowSet:
 			o.window = m.Window
+		case o.window.Milliseconds() == m.Window.Milliseconds():
+		case (o.window == 0) != (m.Window == 0):
+			return usagef("--window %s: the store in %s was created with window %s; a window cannot be turned on or off on an existing store (give --window %s, or start a new --data directory)",
+				windowText(o.window), dir, windowText(m.Window), windowText(m.Window))
+		default:
+			d.log.Warn("store: window changed: adds from now on count for the new span; increments already stored keep their expiry",
+				"was", m.Window, "now", o.window)
+			newWindow = true
 		}
 	} else if !errors.Is(err, ingest.ErrNotStore) || !isNoStore(dir) {
 		return err
@@ -277,13 +287,81 @@ func (d *daemon) openStore() error {
 		}
 		keyID = d.pseudo.KeyID()
 	}
-	s, err := ingest.OpenStore(dir, &ingest.StoreOptions{Graph: o.graph, Window: o.window, KeyID: keyID, Create: true})
+	s, err := ingest.OpenStore(dir, &ingest.StoreOptions{Graph: o.graph, Window: o.window, KeyID: keyID, Create: true, AnyWindow: newWindow})
 	if err != nil {
 		return err
 	}
 	d.store = s
+	if newWindow {
+		if err := s.SetWindow(o.window); err != nil {
+			return err
+		}
+	}
+	if err := d.settleSchedule(); err != nil {
+		return err
+	}
 	d.log.Info("store: open", "dir", dir, "graph", o.graph, "window", windowText(o.window), "pseudonymized", d.pseudo != nil,
 		"applied_seq", s.State().Applied, "events_applied", s.State().EventsApplied)
+	return nil
+}
+
+// Store settings of the snapshot schedule (8 bytes big-endian each).
+const (
+	settingEvery       = "snapshot-every"
+	settingEveryEvents = "snapshot-every-events"
+)
+
+// settleSchedule makes the snapshot schedule the one the flags give, or,
+// without the flags, the one stored with the store (the default, hourly,
+// for a new store), so that a restart without the flags keeps doing what
+// the store was doing. A change is logged and stored; it takes effect from
+// the next boundary. With no rule at all, a warning says that no events
+// will come.
+func (d *daemon) settleSchedule() error {
+	o := d.o
+	var stored timeline.Schedule
+	ok := true
+	for _, f := range []struct {
+		name string
+		set  func(v uint64)
+	}{
+		{settingEvery, func(v uint64) { stored.Every = time.Duration(v) * time.Millisecond }},
+		{settingEveryEvents, func(v uint64) { stored.EveryEvents = int(v) }},
+	} {
+		v, found, err := d.store.Setting(f.name)
+		if err != nil {
+			return err
+		}
+		if found && len(v) != 8 {
+			return fmt.Errorf("store: setting %s of %d bytes, want 8", f.name, len(v))
+		}
+		if !found {
+			ok = false
+			continue
+		}
+		f.set(binary.BigEndian.Uint64(v))
+	}
+	switch {
+	case ok && !o.scheduleSet:
+		o.schedule = stored
+	case ok && stored != o.schedule:
+		d.log.Warn("snapshot schedule changed; the new one applies from the next boundary", "was", stored.String(), "now", o.schedule.String())
+	}
+	if !ok || stored != o.schedule {
+		for _, f := range []struct {
+			name string
+			v    uint64
+		}{{settingEvery, uint64(o.schedule.Every.Milliseconds())}, {settingEveryEvents, uint64(o.schedule.EveryEvents)}} {
+			if err := d.store.PutSetting(f.name, binary.BigEndian.AppendUint64(nil, f.v)); err != nil {
+				return err
+			}
+		}
+	}
+	if o.schedule.Off() {
+		d.log.Warn("snapshots are off (--snapshot-every 0 and no --snapshot-every-events): no lifecycle events will be reported")
+	} else {
+		d.log.Info("snapshots", "schedule", o.schedule.String())
+	}
 	return nil
 }
 
@@ -305,8 +383,8 @@ func windowText(w time.Duration) string {
 	return w.String()
 }
 
-// restore rebuilds the feed and the tracker from the store, and the
-// previous snapshot and the trigger from the last snapshot.
+// restore rebuilds the feed, the tracker and the timeline from the store:
+// the previous snapshot, the history and the timeline's position.
 func (d *daemon) restore() error {
 	t0 := time.Now()
 	r, err := d.store.Restore()
@@ -318,11 +396,11 @@ func (d *daemon) restore() error {
 	name := r.Dict.Name
 	d.o.eo.Name = func(u uint32) string { return name(u) }
 	db := d.store.DB()
+	var prev *snapshot.Snapshot
 	latest, err := snapshot.Latest(db)
 	switch {
 	case err == nil:
-		d.prev = latest
-		d.lastID = latest.ID
+		prev = latest
 		h := latest.Header
 		d.lastSnap.Store(&h)
 	case errors.Is(err, snapshot.ErrNotFound):
@@ -332,37 +410,27 @@ func (d *daemon) restore() error {
 	if hs, err := snapshot.List(db); err == nil {
 		d.snapshots.Store(int64(len(hs)))
 	}
+	hist, err := events.LoadHistory(db, &events.HistoryOptions{Keep: d.o.history, MinSize: d.o.eo.MinSize})
+	if err != nil {
+		return fmt.Errorf("store: lineage history: %w", err)
+	}
 	st := r.State
-	d.trig = d.o.trigger
-	if st.SnapshotMark != math.MinInt64 {
-		d.trig.Mark(st.SnapshotMark, int(st.SnapshotEvents))
-	}
-	d.trackerSeq = st.Applied
-
 	t1 := time.Now()
-	method := d.o.rebuild
-	if method == "auto" {
-		method = "static"
-		if d.prev != nil {
-			method = "snapshot"
-		}
-	}
-	var tr *tracker.Tracker
-	switch {
-	case len(r.Edges) == 0:
-		method = "empty"
-		tr, err = r.Tracker(&d.o.topts, nil, 0)
-	case method == "snapshot" && d.prev != nil:
-		tr, err = r.Tracker(&d.o.topts, d.prev.Membership(r.Dict.Len()), st.NextCommunity)
-	default:
-		method = "static"
-		tr, err = r.Tracker(&d.o.topts, nil, 0)
-	}
+	tr, method, err := timeline.Rebuild(r.Graph(), &d.o.topts, prev, st.NextCommunity, d.o.rebuild)
 	if err != nil {
 		return err
 	}
+	cfg := timeline.Config{
+		Graph: d.o.graph, Schedule: d.o.schedule, ApplyEvery: d.o.applyEvery, Match: d.o.eo,
+		Expire: d.feed.Window().AppendExpire, Async: true,
+		Seq: func() uint64 { return d.lastSeq },
+	}
+	tst := timeline.State{Events: st.EventsApplied, Watermark: st.Watermark, Mark: st.SnapshotMark, MarkEvents: st.SnapshotEvents}
+	d.lastSeq = st.Applied
+	if d.tl, err = timeline.New(cfg, tr, prev, hist, tst, timeline.SinkFunc(d.writeSnapshot)); err != nil {
+		return usageError{err}
+	}
 	g := tr.Graph()
-	d.mu.tr = tr
 	d.restored = r
 	d.log.Info("tracker: rebuilt", "method", method, "nodes", g.Nodes(), "edges", g.Edges(), "communities", tr.NumCommunities(),
 		"modularity", finite(tr.Modularity()), "read", tRead.Round(time.Millisecond), "build", time.Since(t1).Round(time.Millisecond))
@@ -455,127 +523,75 @@ func (n *natsLog) Errorf(f string, a ...any)  { n.l.Error("nats-server: " + fmt.
 func (n *natsLog) Debugf(f string, a ...any)  {}
 func (n *natsLog) Tracef(f string, a ...any)  {}
 
-// apply hands a chunk to the tracker (consumer goroutine).
-// The chunk goes to the tracker goroutine (d.queue) and the consumer goes
-// on; a snapshot waits for the queue to drain first.
-func (d *daemon) apply(b *ingest.Batch, ch *ingest.Chunk) error {
-	if len(ch.Changes) > 0 || ch.Reason != ingest.ChunkFinal {
-		if err := d.queue.Push(ch.Changes); err != nil {
-			return err
-		}
-	}
-	d.trackerSeq = ch.Seq
-	ch.State.NextCommunity = d.nextID.Load()
-	if ch.Reason == ingest.ChunkFinal && d.o.snapshotOnExit && ch.State.EventsApplied > ch.State.SnapshotEvents {
-		if err := d.snapshot(b, ch.Seq, ch.Watermark); err != nil {
-			return err
-		}
-		ch.State.SnapshotEvents = ch.State.EventsApplied
-		ch.State.SnapshotMark = d.boundary(ch.Watermark)
-		d.trig.Mark(ch.State.SnapshotMark, int(ch.State.SnapshotEvents))
-	}
-	return nil
-}
+// ingestSink drives the timeline from the consumer (its goroutine): each
+// event's time, then its changes; an idle stream applies what is pending;
+// at shutdown, with --snapshot-on-exit, a last snapshot. What the timeline
+// writes (snapshots) goes into the batch being built, and its position
+// into the state that batch commits, so both survive a crash together.
+type ingestSink struct{ d *daemon }
 
-// nextChunk takes a snapshot when one is due before the chunk that starts
-// with an event at ts (the rule of shoal replay: between chunks, when the
-// next event is at or past the next multiple of --snapshot-every since the
-// epoch, or --snapshot-every-events have been applied since the last).
-func (d *daemon) nextChunk(b *ingest.Batch, ts int64, st *ingest.State) error {
-	if d.o.trigger.Every == 0 && d.o.trigger.EveryEvents == 0 {
-		return nil
-	}
-	if st.SnapshotMark == math.MinInt64 {
-		st.SnapshotMark, st.SnapshotEvents = d.boundary(ts), st.EventsApplied
-		d.trig.Mark(st.SnapshotMark, int(st.SnapshotEvents))
-		return nil
-	}
-	if !d.trig.Due(ts, int(st.EventsApplied)) {
-		return nil
-	}
-	if err := d.snapshot(b, d.trackerSeq, st.Watermark); err != nil {
-		return err
-	}
-	st.SnapshotMark, st.SnapshotEvents = d.boundary(ts), st.EventsApplied
-	d.trig.Mark(st.SnapshotMark, int(st.SnapshotEvents))
-	return nil
-}
-
-// boundary is the last multiple of --snapshot-every since the epoch at or
-// before ts (ts itself without --snapshot-every), as in shoal replay.
-func (d *daemon) boundary(ts int64) int64 {
-	every := d.o.trigger.Every.Milliseconds()
-	if every <= 0 || ts == math.MinInt64 {
-		return ts
-	}
-	b := ts / every * every
-	if b > ts {
-		b -= every
-	}
-	return b
-}
-
-// applyTracker runs in the tracker goroutine (the chunk queue).
-func (d *daemon) applyTracker(chs []tracker.Change) error {
-	d.mu.Lock()
-	res, err := d.mu.tr.Apply(chs)
-	next := d.mu.tr.NextID()
-	d.mu.Unlock()
-	d.nextID.Store(next)
-	if res.Full {
-		d.log.Debug("tracker: drift guard ran a full pass")
-	}
+func (s ingestSink) Before(b *ingest.Batch, ts int64, st *ingest.State) error {
+	s.d.batch = b
+	err := s.d.tl.At(ts)
+	s.d.keep(st)
 	return err
 }
 
-// snapshot freezes the tracker into b with the events since the previous
-// snapshot (the outbox), so that they commit with the batch. It waits for
-// the tracker goroutine to apply every chunk first; the tracker is then
-// still, and read here without the lock (HTTP readers only read too).
-func (d *daemon) snapshot(b *ingest.Batch, seq uint64, wm int64) error {
-	if err := d.queue.Wait(); err != nil {
+func (s ingestSink) Changes(b *ingest.Batch, seq uint64, chs []tracker.Change, st *ingest.State) error {
+	s.d.batch, s.d.lastSeq = b, seq
+	err := s.d.tl.Add(chs)
+	s.d.keep(st)
+	return err
+}
+
+func (s ingestSink) Idle(b *ingest.Batch, st *ingest.State, final bool) error {
+	s.d.batch = b
+	var err error
+	if final && s.d.o.snapshotOnExit {
+		_, err = s.d.tl.Snapshot(math.MinInt64)
+	} else {
+		err = s.d.tl.Flush()
+	}
+	s.d.keep(st)
+	return err
+}
+
+// keep copies the timeline's position into the state the batch commits.
+func (d *daemon) keep(st *ingest.State) {
+	ts := d.tl.State()
+	st.SnapshotMark, st.SnapshotEvents = ts.Mark, ts.MarkEvents
+	st.NextCommunity = d.tl.NextID()
+}
+
+// writeSnapshot is the timeline's sink: the snapshot, the events that lead
+// to it (the outbox) and the history go into the batch being built, so
+// they commit with the events they account for.
+func (d *daemon) writeSnapshot(s *snapshot.Snapshot, evs []events.Event, h *events.History) error {
+	b := d.batch.Pebble()
+	if err := snapshot.Write(b, s); err != nil {
 		return err
 	}
-	if wm == math.MinInt64 {
-		wm = 0
-	}
-	tr := d.mu.tr
-	stats := tr.Communities()
-	for i := range stats {
-		// Totals kept in place can drift to -1e-17 after removals.
-		stats[i].Internal = max(stats[i].Internal, 0)
-		stats[i].Degree = max(stats[i].Degree, 0)
-	}
-	d.mem = tr.Membership(d.mem)
-	g := tr.Graph()
-	id := d.lastID + 1
-	s, err := snapshot.Freeze(snapshot.Header{
-		ID: id, Graph: d.o.graph, Seq: seq, Watermark: wm, Time: time.Now().UnixMilli(),
-		Modularity: finite(tr.Modularity()), Gamma: tr.Options().Resolution,
-		TotalWeight: g.TotalWeight(), Edges: g.Edges(),
-	}, d.mem, stats)
-	if err != nil {
-		return fmt.Errorf("snapshot %d: %w", id, err)
-	}
-	var evs []events.Event
-	if d.prev != nil {
-		if evs, err = events.Classify(d.prev, s, &d.o.eo); err != nil {
-			return fmt.Errorf("events of snapshot %d: %w", id, err)
-		}
-	}
-	if err := snapshot.Write(b.Pebble(), s); err != nil {
+	if err := events.PutAll(b, s.ID, evs); err != nil {
 		return err
 	}
-	if err := events.PutAll(b.Pebble(), id, evs); err != nil {
+	if err := h.Put(b); err != nil {
 		return err
 	}
 	d.crash.hit("snapshot-written")
-	b.Snapshots++
-	d.prev, d.lastID = s, id
-	h := s.Header
-	d.lastSnap.Store(&h)
+	d.batch.Snapshots++
+	// Events older than --history go (once published); the snapshot index
+	// of the history says where that starts.
+	horizon := s.Time - d.o.history.Milliseconds()
+	for _, r := range h.Snapshots() {
+		if r.Time >= horizon {
+			d.trimBefore.Store(r.ID)
+			break
+		}
+	}
+	hd := s.Header
+	d.lastSnap.Store(&hd)
 	d.snapshots.Add(1)
-	d.log.Info("snapshot", "id", id, "seq", seq, "watermark", snapshot.RFC3339(wm), "nodes", s.Nodes, "edges", s.Edges,
+	d.log.Info("snapshot", "id", s.ID, "time", snapshot.RFC3339(s.Time), "seq", s.Seq, "nodes", s.Nodes, "edges", s.Edges,
 		"communities", len(s.Communities), "modularity", s.Modularity, "events", len(evs))
 	return nil
 }
@@ -596,8 +612,9 @@ func (d *daemon) onCommit(ci ingest.CommitInfo) {
 		"duplicates", ci.Duplicates, "applied_seq", ci.State.Applied, "lag", ci.Lag)
 }
 
-// retain keeps the last --snapshot-keep snapshots and drops the published
-// events of older ones. It runs in its own small batch after the one that
+// retain keeps the last --snapshot-keep snapshots, and the events of the
+// last --history of event time (published ones only: the outbox never
+// loses an event). It runs in its own small batch after the one that
 // committed the snapshot: a crash in between leaves an extra old snapshot,
 // removed the next time.
 func (d *daemon) retain() {
@@ -605,8 +622,8 @@ func (d *daemon) retain() {
 	b := db.NewBatch()
 	defer b.Close()
 	n, err := snapshot.Retain(b, db, d.o.snapshotKeep)
-	if h := d.lastSnap.Load(); err == nil && h != nil && h.ID >= uint64(d.o.snapshotKeep) {
-		_, err = events.Trim(b, db, h.ID-uint64(d.o.snapshotKeep)+1)
+	if before := d.trimBefore.Load(); err == nil && before > 0 {
+		_, err = events.Trim(b, db, before)
 	}
 	if err == nil && !b.Empty() {
 		err = b.Commit(nil)
@@ -639,7 +656,7 @@ func (d *daemon) runOutbox(ctx context.Context) {
 // drainOutbox makes sure the events and rejects streams exist, then
 // publishes what the outbox holds.
 func (d *daemon) drainOutbox(ctx context.Context) {
-	ep := &events.Publisher{JS: d.js, DB: d.store.DB(), Prefix: d.o.eventsPrefix, Failpoint: d.crash.hit}
+	ep := &publish.Publisher{JS: d.js, DB: d.store.DB(), Prefix: d.o.eventsPrefix, Failpoint: d.crash.hit}
 	rp := &ingest.RejectPublisher{JS: d.js, Store: d.store, Graph: d.o.graph, Subject: d.o.rejectsSubject, Pseudonymized: d.pseudo != nil}
 	if d.pseudo != nil {
 		rp.Source = func(ctx context.Context, seq uint64) ([]byte, error) {

@@ -371,7 +371,7 @@ func compareEdges(t testing.TB, got, want map[[2]string]float64, tol float64) {
 	}
 }
 
-// fold is the hand fold of the event model (DESIGN.md section 3): add adds
+// fold is the hand fold of the event model (ingest doc.go): add adds
 // w (1 by default), remove deletes (with w subtracts, the edge going when
 // at most 1e-12 of it is left, the rounding rule of ingest.Load), set sets
 // (0 deletes), node-remove deletes the node's edges.
@@ -560,7 +560,8 @@ func TestDaemonUsage(t *testing.T) {
 	}{
 		{[]string{"run"}, "--data DIR is required"},
 		{[]string{"run", "--data", t.TempDir(), "--graph", "a.b"}, "--graph"},
-		{[]string{"run", "--data", t.TempDir(), "--snapshot-every-events", "1500"}, "multiple of --apply-every"},
+		{[]string{"run", "--data", t.TempDir(), "--history", "0"}, "--history 0"},
+		{[]string{"run", "--data", t.TempDir(), "--snapshot-every", "1us"}, "at least 1ms"},
 		{[]string{"run", "--data", t.TempDir(), "--snapshot-keep", "1"}, "at least 2"},
 		{[]string{"run", "--data", t.TempDir(), "--nats-user", "u", "--nats-token", "t"}, "at most one"},
 		{[]string{"run", "--data", t.TempDir(), "--pseudonymize-key-file", "/nonexistent/key"}, "key"},

@@ -69,8 +69,8 @@ type detectRun struct {
 	Communities int     `json:"communities"`
 }
 
-// stability summarises K runs with different seeds (DESIGN.md section 5,
-// "Validation").
+// stability summarises K runs with different seeds (NMI and ARI: see the
+// tracker doc.go, "Validation").
 type stability struct {
 	MeanNMI        float64 `json:"mean_nmi"`
 	MeanARI        float64 `json:"mean_ari"`
@@ -82,8 +82,7 @@ type stability struct {
 
 func runDetect(ctx context.Context, e *env, args []string) error {
 	fs := newFlags(e, "detect", "FILE [options]")
-	resolution := fs.Float64("resolution", 1, "modularity resolution gamma (> 0); above 1 favours smaller communities")
-	seed := fs.Uint64("seed", 0, "seed of the random node order")
+	trf := addTrackerFlags(fs, false)
 	runs := fs.Int("runs", 1, "run with seeds seed..seed+K-1, keep the best by modularity and report all K")
 	out := fs.String("out", "", "write node<TAB>community lines (external ids) to this file")
 	asJSON := fs.Bool("json", false, "print one JSON object instead of the summary")
@@ -100,10 +99,11 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 	if *runs < 1 {
 		return usagef("--runs %d: must be at least 1", *runs)
 	}
-	opts := tracker.Options{Resolution: *resolution, Seed: *seed}
-	if err := opts.Validate(); err != nil {
-		return usageError{err}
+	opts, err := trf.options()
+	if err != nil {
+		return err
 	}
+	seed := &opts.Seed
 	if *nullK < 0 {
 		return usagef("--null %d: must be >= 0", *nullK)
 	}

@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
-	"flag"
 	"fmt"
 	"io"
 	"path/filepath"
@@ -31,37 +30,6 @@ import (
 // times are --old-time and --new-time (the Unix epoch when not given: a
 // file has no time of its own, and the file's modification time would make
 // the output depend on where the file was copied).
-
-// matchFlags are the event-matching flags of replay and diff.
-type matchFlags struct {
-	minSize, maxListed *int
-	theta, growth      *float64
-	members            *bool
-}
-
-func addMatchFlags(fs *flag.FlagSet) *matchFlags {
-	return &matchFlags{
-		minSize:   fs.Int("min-size", events.DefaultMinSize, "smallest community size that takes part in events"),
-		theta:     fs.Float64("theta", events.DefaultTheta, "smallest Jaccard similarity of a continuation, in (0, 1]"),
-		growth:    fs.Float64("growth", events.DefaultGrowthFraction, "relative size change that makes a continuation a grow or shrink, in (0, 1)"),
-		maxListed: fs.Int("max-listed", events.DefaultMaxListed, "cap on the joined and left member lists of an event (negative: none listed)"),
-		members:   fs.Bool("members", false, "put the full member lists of the communities before and after into each event"),
-	}
-}
-
-func (m *matchFlags) options(name func(uint32) string) (events.Options, error) {
-	o := events.Options{
-		MinSize: *m.minSize, Theta: *m.theta, GrowthFraction: *m.growth,
-		MaxListed: *m.maxListed, Members: *m.members, Name: name,
-	}
-	if o.MaxListed == 0 {
-		o.MaxListed = -1 // 0 means the default in events.Options; here it means none
-	}
-	if err := o.Validate(); err != nil {
-		return o, usageError{err}
-	}
-	return o, nil
-}
 
 // parseTimeFlag reads an RFC 3339 time or Unix milliseconds; "" is 0.
 func parseTimeFlag(flagName, s string) (int64, error) {
@@ -160,8 +128,7 @@ type diffSummary struct {
 
 func runDiff(ctx context.Context, e *env, args []string) error {
 	fs := newFlags(e, "diff", "OLD NEW [options]")
-	resolution := fs.Float64("resolution", 1, "modularity resolution gamma (> 0); above 1 favours smaller communities")
-	seed := fs.Uint64("seed", 0, "seed of the random node order (both runs)")
+	trf := addTrackerFlags(fs, false)
 	mf := addMatchFlags(fs)
 	graph := fs.String("graph", "", "graph name in the events (default: NEW's file name)")
 	eventsOut := fs.String("events-out", "", "write the events to this file instead of stdout")
@@ -179,9 +146,9 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	if pos[0] == "-" && pos[1] == "-" {
 		return usagef("only one of OLD and NEW can be - (stdin)")
 	}
-	topts := tracker.Options{Resolution: *resolution, Seed: *seed}
-	if err := topts.Validate(); err != nil {
-		return usageError{err}
+	topts, err := trf.options()
+	if err != nil {
+		return err
 	}
 	tOld, err := parseTimeFlag("old-time", *oldTime)
 	if err != nil {
@@ -277,7 +244,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	sum := diffSummary{
-		Graph: name, Resolution: topts.Resolution, Seed: *seed, MinSize: eo.MinSize,
+		Graph: name, Resolution: topts.Resolution, Seed: topts.Seed, MinSize: eo.MinSize,
 		Old:       side(pos[0], gOld, sA, eo.MinSize),
 		New:       side(pos[1], gNew, sB, eo.MinSize),
 		NodesKept: kept, NodesAdded: len(only), NodesRemoved: nOld - kept, Events: len(evs),

@@ -470,7 +470,7 @@ func waitReady(t *testing.T, d *daemonProc, code int) {
 
 // badMessages is one message per kind of bad input (27 kinds), with the
 // reject code it must get: the decode sentinels of ingest/errors.go and
-// the event model of DESIGN.md section 3, plus the empty message.
+// the event model of the ingest doc.go, plus the empty message.
 var badMessages = []struct{ msg, code string }{
 	{`{"op":"add","src":"a","dst":"b"`, "syntax"},
 	{`{"op":"add","src":"a","dst":"b"} x`, "syntax"},

@@ -7,6 +7,7 @@ import (
 	"time"
 
 	"shoal/snapshot"
+	"shoal/tracker"
 )
 
 // statsResponse is the body of GET /v1/stats. The graph figures are the
@@ -51,7 +52,7 @@ func (d *daemon) stats() statsResponse {
 	st := cs.State
 	r := statsResponse{
 		Graph: d.o.graph, AppliedSeq: st.Applied, EventsApplied: st.EventsApplied, EventsRejected: st.EventsRejected,
-		MessagesApplied: st.Messages, PendingChanges: cs.Pending + d.queue.Pending(), Duplicates: cs.Duplicates, Repositions: cs.Repositions,
+		MessagesApplied: st.Messages, PendingChanges: d.tl.Stats().Pending, Duplicates: cs.Duplicates, Repositions: cs.Repositions,
 		ConsumerLag: cs.Lag, Consuming: cs.Consuming, Snapshots: d.snapshots.Load(), Window: windowText(d.o.window),
 		Pseudonymized: d.pseudo != nil, StoreBytes: d.store.DiskUsage(), UptimeSeconds: time.Since(d.started).Seconds(),
 	}
@@ -68,12 +69,11 @@ func (d *daemon) stats() statsResponse {
 	if e := d.outboxErr.Load(); e != nil {
 		r.OutboxError = *e
 	}
-	d.mu.Lock()
-	tr := d.mu.tr
-	g := tr.Graph()
-	r.Nodes, r.Edges, r.TotalWeight = g.Nodes(), g.Edges(), g.TotalWeight()
-	r.Modularity, r.Communities = finite(tr.Modularity()), tr.NumCommunities()
-	d.mu.Unlock()
+	d.tl.Read(func(tr *tracker.Tracker) {
+		g := tr.Graph()
+		r.Nodes, r.Edges, r.TotalWeight = g.Nodes(), g.Edges(), g.TotalWeight()
+		r.Modularity, r.Communities = finite(tr.Modularity()), tr.NumCommunities()
+	})
 	return r
 }
 

@@ -55,7 +55,7 @@ func main() {
 }
 
 // run executes one command line and returns the exit code: 0 success,
-// 1 failure, 2 bad usage or bad input (DESIGN.md section 7).
+// 1 failure, 2 bad usage or bad input (as the README says).
 func run(ctx context.Context, e *env, args []string) int {
 	if len(args) == 0 || args[0] == "help" || args[0] == "-h" || args[0] == "--help" {
 		printUsage(e.stdout)

@@ -14,6 +14,7 @@ import (
 	"github.com/schollz/progressbar/v3"
 
 	"shoal/events"
+	"shoal/events/timeline"
 	"shoal/ingest"
 	"shoal/snapshot"
 	"shoal/tracker"
@@ -44,26 +45,22 @@ import (
 //     expiry driven by the watermark; without, an exact record of the
 //     edges), whose AppendChanges turns it into tracker changes: first the
 //     increments that expire at the event's time, then the event itself.
-//  5. Chunks. The changes of events 1..N, N+1..2N, ... (N = --apply-every,
-//     counted from the first event of the applied order) go to the tracker
-//     as one batch each, and a last batch holds the rest. The daemon uses
-//     the same chunks, aligned on the stream sequence, so the same file
-//     published one event per message reaches the same partition.
-//  6. Snapshots are taken between chunks (a snapshot never splits a chunk,
-//     so snapshots do not change the partition), before the next chunk is
-//     applied, when its first event is at or past the next time boundary,
-//     or when at least --every-events events have been applied since the
-//     last snapshot (so --every-events must be a multiple of
-//     --apply-every); and once more at the end of the input if events were
-//     applied after the last one. The time boundaries are the multiples of
-//     --every since the Unix epoch (UTC): with --every 1h a snapshot holds
-//     the events before 10:00, 11:00, ... exactly when --apply-every is 1,
-//     and otherwise those up to the end of the chunk in which the boundary
-//     falls (the daemon also snapshots between batches); a gap longer
-//     than --every gives one snapshot, not empty ones. Snapshot ids run from
-//     1; Seq is the number of events applied; Watermark and Time are both
-//     the watermark, the largest event time applied (replay has no wall
-//     clock: its output depends on the input and the flags only).
+//  5. Batches and snapshots come from the timeline (package
+//     events/timeline), as in the daemon: the changes of events 1..N,
+//     N+1..2N, ... (N = --apply-every, counted from the first event) go to
+//     the tracker as one batch each, and a batch also ends at every
+//     snapshot, so --apply-every changes the speed, not the snapshots.
+//  6. Snapshots. The time boundaries are the multiples of --every since
+//     the Unix epoch (UTC). Before the first event at or past a boundary T
+//     the pending batch is applied, the window is expired to T, and the
+//     snapshot at T is taken: it holds exactly the events with time before
+//     T, and its time is T. A gap longer than --every gives one snapshot,
+//     at the first boundary, not empty ones. --every-events N takes one
+//     once N events came since the last snapshot (any N); and one more is
+//     taken at the end of the input if events came after the last one.
+//     Snapshot ids run from 1; Seq is the number of events applied;
+//     Watermark the largest event time applied (or the boundary); replay
+//     has no wall clock: its output depends on the input and the flags.
 //  7. The drift guard (--drift-bound, default 0.25) runs a full
 //     warm-started pass once the weight changed since the last one exceeds
 //     that fraction of the total. Measured every 5000 events against a
@@ -129,17 +126,12 @@ const noID = ^uint32(0)
 
 func runReplay(ctx context.Context, e *env, args []string) error {
 	fs := newFlags(e, "replay", "FILE [options]")
-	resolution := fs.Float64("resolution", 1, "modularity resolution gamma (> 0); above 1 favours smaller communities")
-	seed := fs.Uint64("seed", 0, "seed of the random node orders")
+	trf := addTrackerFlags(fs, true)
 	mf := addMatchFlags(fs)
-	every := fs.Duration("every", 0, "snapshot every DURATION of event time (e.g. 1h, 168h)")
-	everyEvents := fs.Int("every-events", 0, "snapshot every N events (a multiple of --apply-every)")
-	applyEvery := fs.Int("apply-every", 1000, "apply events to the tracker in chunks of N, counted from the first event (the daemon's batch size)")
-	fullEvery := fs.Int("full-every", 0, "drift guard: a full warm-started pass every N batches (0: never on a count)")
-	driftBound := fs.Float64("drift-bound", 0.25, "drift guard: a full warm-started pass once the weight changed since the last one exceeds this fraction of the total (0: never)")
-	window := fs.Duration("window", 0, "sliding window: an add counts for this long after its time (0: forever)")
+	tf := addTimelineFlags(fs, "", 0)
 	eventsOut := fs.String("events-out", "", "write the events to this file instead of stdout")
 	snapshotsOut := fs.String("snapshots-out", "", "write one JSON line per snapshot header to this file")
+	historyOut := fs.String("history-out", "", "write the lineage (snapshot index, one line per community, one per node) as JSON lines to this file at the end")
 	graph := fs.String("graph", "", "graph name in events and snapshots (default: the file name)")
 	asJSON := fs.Bool("json", false, "print the final summary on stderr as one JSON object")
 	lo := addInputFlags(fs)
@@ -150,26 +142,19 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	if len(pos) != 1 {
 		return usagef("want exactly one FILE (or - for stdin), got %d arguments", len(pos))
 	}
-	topts := tracker.Options{Resolution: *resolution, Seed: *seed, FullEvery: *fullEvery, DriftBound: *driftBound}
-	if err := topts.Validate(); err != nil {
-		return usageError{err}
+	topts, err := trf.options()
+	if err != nil {
+		return err
 	}
-	trig := snapshot.Trigger{Every: *every, EveryEvents: *everyEvents}
-	if err := trig.Validate(); err != nil {
-		return usageError{err}
+	sched, err := tf.schedule()
+	if err != nil {
+		return err
 	}
-	switch {
-	case *every == 0 && *everyEvents == 0:
-		return usagef("no snapshot trigger: give --every DURATION (event time) and/or --every-events N")
-	case *applyEvery < 1:
-		return usagef("--apply-every %d: must be at least 1", *applyEvery)
-	case *everyEvents%*applyEvery != 0:
-		return usagef("--every-events %d is not a multiple of --apply-every %d: snapshots are taken between chunks; pass --apply-every %d or a divisor of it",
-			*everyEvents, *applyEvery, *everyEvents)
-	case *window < 0:
-		return usagef("--window %v: must not be negative", *window)
-	case *window > 0 && *window < time.Millisecond:
-		return usagef("--window %v: must be at least 1ms", *window)
+	if sched.Off() {
+		return usagef("no snapshot schedule: give --every DURATION (event time, e.g. 24h) and/or --every-events N")
+	}
+	if *tf.history == 0 {
+		return usagef("--history 0: the lineage must be kept for some time (default %v)", defaultHistory)
 	}
 	lopts, err := lo.options(pos[0])
 	if err != nil {
@@ -188,20 +173,31 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
-	if !in.timed && len(in.evs) > 0 && (*every > 0 || *window > 0) {
+	if !in.timed && len(in.evs) > 0 && (*tf.every > 0 || *tf.window > 0) {
 		return usagef("%s: no event has a time, so --every and --window cannot work; use --every-events", lopts.Name)
 	}
 	if !in.sorted {
 		fmt.Fprintf(e.stderr, "shoal replay: %s is not in time order: stable-sorted its %d events by time in memory\n", lopts.Name, len(in.evs))
 	}
 
-	r := &replayer{
-		e: e, in: in, topts: topts, trig: trig, applyEvery: *applyEvery, graph: name,
-		win: ingest.NewWindow(*window), minSize: *mf.minSize,
+	r := &replayer{e: e, in: in, graph: name, win: ingest.NewWindow(*tf.window), minSize: *mf.minSize}
+	eo, _ := mf.options(r.name)
+	tr, err := tracker.New(&topts)
+	if err != nil {
+		return usageError{err}
 	}
-	r.eo, _ = mf.options(r.name)
+	hist, err := events.NewHistory(&events.HistoryOptions{Keep: *tf.history, MinSize: eo.MinSize, NoStore: true})
+	if err != nil {
+		return usageError{err}
+	}
+	r.tl, err = timeline.New(timeline.Config{
+		Graph: name, Schedule: sched, ApplyEvery: *tf.applyEvery, Match: eo, Expire: r.win.AppendExpire,
+	}, tr, nil, hist, timeline.NewState(), timeline.SinkFunc(r.snapshot))
+	if err != nil {
+		return usageError{err}
+	}
 	r.sum = replaySummary{File: pos[0], Graph: name, Events: len(in.evs), Lines: in.lines, Sorted: in.sorted,
-		Window: window.String(), ApplyEvery: *applyEvery, ModularityMin: math.NaN(), ModularityMax: math.NaN()}
+		Window: tf.window.String(), ApplyEvery: *tf.applyEvery, ModularityMin: math.NaN(), ModularityMax: math.NaN()}
 	if len(in.evs) > 0 {
 		r.sum.FirstTime = snapshot.RFC3339(in.evs[0].ts)
 		r.sum.LastTime = snapshot.RFC3339(in.evs[len(in.evs)-1].ts)
@@ -218,6 +214,11 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	})
 	if err != nil {
 		return err
+	}
+	if *historyOut != "" {
+		if err := withOutput(e, *historyOut, func(w io.Writer) error { return hist.WriteJSONL(w, r.name) }); err != nil {
+			return err
+		}
 	}
 	return r.summarise(*asJSON)
 }
@@ -323,18 +324,15 @@ func readReplay(e *env, path string, o ingest.ReaderOptions) (*replayInput, erro
 	return in, nil
 }
 
-// replayer runs the applied-order events through the window, the tracker,
-// the snapshots and the classifier.
+// replayer runs the applied-order events through the window and the
+// timeline, and writes what the timeline's snapshots give.
 type replayer struct {
-	e          *env
-	in         *replayInput
-	topts      tracker.Options
-	trig       snapshot.Trigger
-	applyEvery int
-	graph      string
-	win        *ingest.Window
-	eo         events.Options
-	minSize    int
+	e       *env
+	in      *replayInput
+	graph   string
+	win     *ingest.Window
+	tl      *timeline.Timeline
+	minSize int
 
 	ew io.Writer     // events
 	sw *json.Encoder // snapshot headers, or nil
@@ -343,11 +341,7 @@ type replayer struct {
 	order []uint32 // dense id -> reading id
 	names []string // dense id -> external id, filled by name
 
-	tr       *tracker.Tracker
-	prev     *snapshot.Snapshot
-	mem      []uint64
-	lastSnap int // events applied at the last snapshot
-	sum      replaySummary
+	sum replaySummary
 }
 
 // name returns the external id of dense id v. Events name the same nodes
@@ -371,17 +365,10 @@ func (r *replayer) dense(f uint32) uint32 {
 }
 
 func (r *replayer) run(ctx context.Context) error {
-	var err error
-	if r.tr, err = tracker.New(&r.topts); err != nil {
-		return usageError{err}
-	}
 	evs := r.in.evs
 	r.ids = make([]uint32, r.in.dict.Len())
 	for i := range r.ids {
 		r.ids[i] = noID
-	}
-	if len(evs) > 0 {
-		r.trig.Mark(r.boundary(evs[0].ts), 0) // the time rule starts at the first boundary
 	}
 	var bar *progressbar.ProgressBar
 	if r.e.interactive {
@@ -394,9 +381,12 @@ func (r *replayer) run(ctx context.Context) error {
 		)
 		defer bar.Finish()
 	}
-	batch := make([]tracker.Change, 0, 2*r.applyEvery)
+	var chs []tracker.Change
 	for i := range evs {
 		ev := &evs[i]
+		if err := r.tl.At(ev.ts); err != nil {
+			return err
+		}
 		var u, v uint32
 		known := true
 		switch {
@@ -410,101 +400,42 @@ func (r *replayer) run(ctx context.Context) error {
 			known = u != noID && v != noID
 		}
 		if known {
-			batch = r.win.AppendChanges(batch, ev.op, ev.ts, u, v, ev.w, ev.hasW)
+			chs = r.win.AppendChanges(chs[:0], ev.op, ev.ts, u, v, ev.w, ev.hasW)
 		} else {
-			batch = r.win.AppendExpire(batch, ev.ts) // the event still moves the watermark
+			chs = r.win.AppendExpire(chs[:0], ev.ts) // the event still moves the watermark
 		}
-		n := i + 1
-		if n%r.applyEvery != 0 && n != len(evs) {
-			continue
+		if err := r.tl.Add(chs); err != nil {
+			return fmt.Errorf("event %d: %w", i+1, err)
 		}
-		res, err := r.tr.Apply(batch)
-		if err != nil {
-			return fmt.Errorf("apply events %d..%d: %w", (n-1)/r.applyEvery*r.applyEvery+1, n, err)
-		}
-		batch = batch[:0]
-		r.sum.Batches++
-		if res.Full {
-			r.sum.FullPasses++
-		}
-		if err := ctx.Err(); err != nil {
-			return err
-		}
-		if bar != nil {
-			_ = bar.Set(n)
-		}
-		if n == len(evs) {
-			if n > r.lastSnap {
-				return r.snapshot(n)
-			}
-			return nil
-		}
-		// Due before the next event: it is at or past the next time
-		// boundary, or enough events have been applied.
-		if next := evs[n].ts; r.trig.Due(next, n) {
-			if err := r.snapshot(n); err != nil {
+		if i%4096 == 0 {
+			if err := ctx.Err(); err != nil {
 				return err
 			}
-			r.trig.Mark(r.boundary(next), n)
+			if bar != nil {
+				_ = bar.Set(i)
+			}
 		}
 	}
+	if err := r.tl.End(); err != nil {
+		return err
+	}
+	st := r.tl.Stats()
+	r.sum.Batches, r.sum.FullPasses = st.Batches, st.FullPasses
 	return nil
 }
 
-// boundary returns the last time boundary at or before ts: the largest
-// multiple of --every since the Unix epoch (ts itself without --every).
-func (r *replayer) boundary(ts int64) int64 {
-	every := r.trig.Every.Milliseconds()
-	if every <= 0 {
-		return ts
-	}
-	b := ts / every * every
-	if b > ts { // negative times: round towards minus infinity
-		b -= every
-	}
-	return b
-}
-
-// snapshot freezes the tracker's partition, classifies the events since the
-// previous snapshot and writes them and the header line.
-func (r *replayer) snapshot(n int) error {
-	wm := r.win.Watermark()
-	if wm == math.MinInt64 {
-		wm = 0
-	}
-	stats := r.tr.Communities()
-	for i := range stats {
-		// The tracker keeps totals in place; removals can leave -1e-17.
-		stats[i].Internal = max(stats[i].Internal, 0)
-		stats[i].Degree = max(stats[i].Degree, 0)
-	}
-	r.mem = r.tr.Membership(r.mem)
-	g := r.tr.Graph()
-	s, err := snapshot.Freeze(snapshot.Header{
-		ID: uint64(r.sum.Snapshots + 1), Graph: r.graph, Seq: uint64(n), Watermark: wm, Time: wm,
-		Modularity: r.tr.Modularity(), Gamma: r.tr.Options().Resolution,
-		TotalWeight: g.TotalWeight(), Edges: g.Edges(),
-	}, r.mem, stats)
-	if err != nil {
-		return fmt.Errorf("snapshot after %d events: %w", n, err)
-	}
-	nev := 0
-	if r.prev != nil {
-		evs, err := events.Classify(r.prev, s, &r.eo)
-		if err != nil {
-			return fmt.Errorf("events between snapshots %d and %d: %w", r.prev.ID, s.ID, err)
+// snapshot is the timeline's sink: it writes the events and the header
+// line, and keeps the summary.
+func (r *replayer) snapshot(s *snapshot.Snapshot, evs []events.Event, _ *events.History) error {
+	for i := range evs {
+		if err := events.Encode(r.ew, &evs[i]); err != nil {
+			return err
 		}
-		for i := range evs {
-			if err := events.Encode(r.ew, &evs[i]); err != nil {
-				return err
-			}
-			r.sum.ByType.add(evs[i].Type)
-		}
-		nev = len(evs)
-		r.sum.Lifecycle += nev
+		r.sum.ByType.add(evs[i].Type)
 	}
+	r.sum.Lifecycle += len(evs)
 	if r.sw != nil {
-		line := snapshotLine{HeaderJSON: s.HeaderJSON(), Eligible: eligible(s, r.minSize), Events: nev}
+		line := snapshotLine{HeaderJSON: s.HeaderJSON(), Eligible: eligible(s, r.minSize), Events: len(evs)}
 		for i := range s.Communities {
 			line.Largest = max(line.Largest, s.Communities[i].Size)
 		}
@@ -519,8 +450,6 @@ func (r *replayer) snapshot(n int) error {
 	r.sum.ModularityMin, r.sum.ModularityMax = min(r.sum.ModularityMin, q), max(r.sum.ModularityMax, q)
 	r.sum.Snapshots++
 	r.sum.Nodes, r.sum.Edges, r.sum.Communities = s.Nodes, s.Edges, len(s.Communities)
-	r.prev = s
-	r.lastSnap = n
 	return nil
 }
 

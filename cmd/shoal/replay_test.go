@@ -16,6 +16,7 @@ import (
 	"time"
 
 	"shoal/events"
+	"shoal/snapshot"
 	"shoal/tracker/gen"
 )
 
@@ -67,17 +68,37 @@ func readSnapshots(t testing.TB, path string) []snapshotLine {
 //   - the shape of each type (birth: nothing before, one after; merge: two
 //     or more before; grow: larger; ...);
 //   - the per-snapshot event counts of the header lines add up.
-func checkConsistent(t *testing.T, evs []events.Event, snaps []snapshotLine, minSize, applyEvery, total int) {
+//
+// With times (the event times in applied order, Unix ms) it also checks
+// the schedule of replay.go: every snapshot but the last is at a boundary,
+// a multiple of every since the epoch, and holds exactly the events before
+// it; the snapshots are at the first boundary after each event whose
+// interval is later than the previous event's (schedule).
+func checkConsistent(t *testing.T, evs []events.Event, snaps []snapshotLine, minSize int, times []int64, every time.Duration, total int) {
 	t.Helper()
 	if len(snaps) < 2 {
 		t.Fatalf("only %d snapshots", len(snaps))
+	}
+	var want []scheduled
+	if times != nil {
+		want = schedule(times, every)
+		if len(want) != len(snaps)-1 {
+			t.Fatalf("%d snapshots before the last, the schedule gives %d", len(snaps)-1, len(want))
+		}
 	}
 	for i, s := range snaps {
 		if s.ID != uint64(i+1) {
 			t.Fatalf("snapshot %d has id %d", i+1, s.ID)
 		}
-		if i+1 < len(snaps) && int(s.Seq)%applyEvery != 0 {
-			t.Fatalf("snapshot %d at seq %d, not between chunks of %d", s.ID, s.Seq, applyEvery)
+		if i+1 < len(snaps) && want != nil {
+			at, err := time.Parse(time.RFC3339Nano, s.Time)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if at.UnixMilli() != want[i].at || int(s.Seq) != want[i].seq || s.WatermarkMs != want[i].at {
+				t.Fatalf("snapshot %d at %s (watermark %s) after %d events; the schedule says at %s after %d",
+					s.ID, s.Time, s.Watermark, s.Seq, snapshot.RFC3339(want[i].at), want[i].seq)
+			}
 		}
 		if i > 0 && (s.Seq <= snaps[i-1].Seq || s.WatermarkMs < snaps[i-1].WatermarkMs) {
 			t.Fatalf("snapshot %d: seq or watermark went back", s.ID)
@@ -224,10 +245,10 @@ func fileTimes(t *testing.T, path string) []int64 {
 // events against the snapshots (checkConsistent), the summary against the
 // events, the totals against SNAP's published counts (1899 nodes, 59835
 // temporal edges: every line adds 1, so the final total weight is 59835),
-// and the snapshot schedule against the rule in replay.go: a snapshot is
-// taken between two chunks exactly when the next chunk's first event lies
-// in a later week (multiples of 168h since the epoch) than the one that
-// followed the previous snapshot.
+// and the snapshot schedule against the rule in replay.go, written out in
+// schedule: a snapshot at the end of every week (multiples of 168h since
+// the epoch) with an event after it, holding the events before it, with
+// the default --apply-every 1000 (batches end at the boundaries).
 func TestReplayCollegeMsg(t *testing.T) {
 	snaps := filepath.Join(t.TempDir(), "snaps.jsonl")
 	out, errs, code := runIn(t, "", "replay", testdata("collegemsg.tsv"), "--time-unit", "s", "--columns", "src,dst,ts",
@@ -237,7 +258,7 @@ func TestReplayCollegeMsg(t *testing.T) {
 	}
 	evs := parseEvents(t, out)
 	ss := readSnapshots(t, snaps)
-	checkConsistent(t, evs, ss, events.DefaultMinSize, 1000, 59835)
+	checkConsistent(t, evs, ss, events.DefaultMinSize, fileTimes(t, testdata("collegemsg.tsv")), 168*time.Hour, 59835)
 	if got, want := summaryCounts(t, errs), countTypes(evs); !mapsEqual(got, want) {
 		t.Errorf("summary counts %v, events %v", got, want)
 	}
@@ -245,27 +266,39 @@ func TestReplayCollegeMsg(t *testing.T) {
 	if last.Nodes != 1899 || last.TotalWeight != 59835 {
 		t.Errorf("final snapshot: %d nodes, total weight %v; SNAP: 1899 nodes, 59835 messages", last.Nodes, last.TotalWeight)
 	}
-	ts := fileTimes(t, testdata("collegemsg.tsv"))
-	const week = int64(168 * time.Hour / time.Millisecond)
-	ref := ts[0] / week // week of the event after the last snapshot
-	k := 0
-	for c := 1000; c < len(ts); c += 1000 {
-		taken := k < len(ss)-1 && int(ss[k].Seq) == c
-		due := ts[c]/week > ref
-		if taken != due {
-			t.Fatalf("between chunks at event %d (next event in week %d, reference week %d): snapshot taken %v, due %v", c, ts[c]/week, ref, taken, due)
-		}
-		if taken {
-			ref = ts[c] / week
-			k++
-		}
-	}
-	if k != len(ss)-1 {
-		t.Fatalf("%d snapshots between chunks, %d in the file (plus the final one)", k, len(ss)-1)
-	}
 	if len(evs) == 0 || countTypes(evs)[events.Birth] == 0 {
 		t.Fatalf("a growing message network should produce births: %v", countTypes(evs))
 	}
+}
+
+// scheduled is a snapshot the schedule asks for: at time at (ms), holding
+// the first seq events.
+type scheduled struct {
+	at  int64
+	seq int
+}
+
+// schedule is the rule of replay.go written out for sorted event times:
+// the time rule starts at the boundary before the first event, and each
+// event in a later interval than the one before it closes the interval of
+// that one: a snapshot at the end of it, holding the events before it. An
+// interval with no event in it gives no snapshot.
+func schedule(times []int64, every time.Duration) []scheduled {
+	w := every.Milliseconds()
+	floor := func(ts int64) int64 {
+		b := ts / w * w
+		if b > ts {
+			b -= w
+		}
+		return b
+	}
+	var out []scheduled
+	for i := 1; i < len(times); i++ {
+		if floor(times[i]) > floor(times[i-1]) {
+			out = append(out, scheduled{at: floor(times[i-1]) + w, seq: i})
+		}
+	}
+	return out
 }
 
 func mapsEqual(a, b map[events.Type]int) bool {
@@ -383,7 +416,7 @@ func TestReplayUnsorted(t *testing.T) {
 		t.Fatal("replay of the unsorted file differs from replay of its stable-sorted copy")
 	}
 	evs := parseEvents(t, outA)
-	checkConsistent(t, evs, readSnapshots(t, snapsA), events.DefaultMinSize, 250, 10000)
+	checkConsistent(t, evs, readSnapshots(t, snapsA), events.DefaultMinSize, fileTimes(t, sorted), 720*time.Hour, 10000)
 	if len(evs) == 0 {
 		t.Fatal("no events")
 	}
@@ -452,11 +485,12 @@ func TestReplayBirthInSecondInterval(t *testing.T) {
 	if len(ss) != 3 || ss[0].Seq != 21 || ss[1].Seq != 31 || ss[2].Seq != 34 {
 		t.Fatalf("snapshots %+v; want 3 at events 21 (hour 0), 31 (hour 1) and 34 (end)", ss)
 	}
-	if ss[0].Watermark != "2026-01-01T00:20:00Z" || ss[1].Watermark != "2026-01-01T01:09:00Z" {
-		t.Fatalf("watermarks %s %s: want the last event time of hours 0 and 1", ss[0].Watermark, ss[1].Watermark)
+	if ss[0].Watermark != "2026-01-01T01:00:00Z" || ss[1].Watermark != "2026-01-01T02:00:00Z" ||
+		ss[0].Time != ss[0].Watermark || ss[1].Time != ss[1].Watermark {
+		t.Fatalf("snapshots at %s, %s (watermarks %s, %s): want the boundaries 01:00 and 02:00", ss[0].Time, ss[1].Time, ss[0].Watermark, ss[1].Watermark)
 	}
 	evs := parseEvents(t, out)
-	checkConsistent(t, evs, ss, 3, 1, 34)
+	checkConsistent(t, evs, ss, 3, nil, 0, 34)
 	births := 0
 	for _, ev := range evs {
 		switch ev.Type {
@@ -492,17 +526,18 @@ func TestReplayBirthInSecondInterval(t *testing.T) {
 //	01:35        q1-q2 again
 //	01:55        q3-q4 again
 //
-// Snapshots (before the first event at or past each half hour, and at the
-// end), worked by hand from the window rule (an increment counts while its
-// expiry is after the watermark):
+// Snapshots (at each half hour with an event after it, holding the graph
+// exactly as it was then, and at the end), worked by hand from the window
+// rule (an increment counts while its expiry is after the watermark; the
+// snapshot at T expires what is due by T first):
 //
-//	1  before 00:50  wm 00:15  p, q: 12 edges, weight 12, 8 nodes
-//	2  before 01:05  wm 00:50  12 edges, weight 13 (p1-p2 twice)
-//	3  before 01:35  wm 01:10  p's edges expired but p1-p2 (01:50); q's
-//	                           first increments expired up to 01:10:
-//	                           7 edges, weight 1 + 6 + 5 = 12, 6 nodes
-//	4  end           wm 01:55  p1-p2 expired: 6 edges, weight 6+1+1 = 8,
-//	                           4 nodes
+//	1  00:30  p, q: 12 edges, weight 12, 8 nodes
+//	2  01:00  p1-p2's first increment expired at 01:00: 12 edges,
+//	          weight 13 - 1 = 12, 8 nodes
+//	3  01:30  p's edges expired but p1-p2 (01:50); q's first increments
+//	          expired at 01:10-01:15, its second ones live:
+//	          7 edges, weight 1 + 6 = 7, 6 nodes
+//	4  end    wm 01:55: p1-p2 expired: 6 edges, weight 6+1+1 = 8, 4 nodes
 //
 // Events: 1-2 continue p and q; 2-3 death of p (what is left of it, p1-p2,
 // is below the size floor), continue q; 3-4 continue q.
@@ -528,9 +563,9 @@ func TestReplayWindowExpiry(t *testing.T) {
 		weight       float64
 	}
 	wants := []want{
-		{"2026-01-01T00:15:00Z", 12, 8, 12},
-		{"2026-01-01T00:50:00Z", 12, 8, 13},
-		{"2026-01-01T01:10:00Z", 7, 6, 12},
+		{"2026-01-01T00:30:00Z", 12, 8, 12},
+		{"2026-01-01T01:00:00Z", 12, 8, 12},
+		{"2026-01-01T01:30:00Z", 7, 6, 7},
 		{"2026-01-01T01:55:00Z", 6, 4, 8},
 	}
 	if len(ss) != len(wants) {
@@ -544,7 +579,7 @@ func TestReplayWindowExpiry(t *testing.T) {
 		}
 	}
 	evs := parseEvents(t, out)
-	checkConsistent(t, evs, ss, 3, 1, 21)
+	checkConsistent(t, evs, ss, 3, nil, 0, 21)
 	var got []string
 	for _, ev := range evs {
 		got = append(got, fmt.Sprintf("%d:%s", ev.ToSnapshot, ev.Type))
@@ -594,8 +629,9 @@ func TestReplayUsage(t *testing.T) {
 		args []string
 		want string
 	}{
-		{[]string{"replay", f}, "no snapshot trigger"},
-		{[]string{"replay", f, "--every-events", "500"}, "not a multiple of --apply-every 1000"},
+		{[]string{"replay", f}, "no snapshot schedule"},
+		{[]string{"replay", f, "--every-events", "-1"}, "must not be negative"},
+		{[]string{"replay", f, "--every-events", "10", "--history", "0"}, "--history 0"},
 		{[]string{"replay", f, "--every", "1h"}, "no event has a time"},
 		{[]string{"replay", f, "--every-events", "10", "--apply-every", "10", "--window", "1h"}, "no event has a time"},
 		{[]string{"replay", f, "--every-events", "10", "--apply-every", "0"}, "--apply-every 0"},
@@ -607,10 +643,10 @@ func TestReplayUsage(t *testing.T) {
 			t.Errorf("%v: exit %d, stdout %q, stderr %q; want 2 and %q", c.args, code, out, errs, c.want)
 		}
 	}
-	// Without times, --every-events works: karate (78 edges) in chunks of
-	// 10 gives snapshots at 10, 20, ..., 70 and 78.
+	// Without times, --every-events works, for any batch size: karate (78
+	// edges) gives snapshots at 10, 20, ..., 70 and 78.
 	snaps := filepath.Join(t.TempDir(), "s.jsonl")
-	_, errs, code := runIn(t, "", "replay", f, "--every-events", "10", "--apply-every", "10", "--snapshots-out", snaps)
+	_, errs, code := runIn(t, "", "replay", f, "--every-events", "10", "--apply-every", "7", "--snapshots-out", snaps)
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, errs)
 	}
@@ -678,9 +714,9 @@ func BenchmarkReplay(b *testing.B) {
 //	g-h  no time  -> 00:40, expires 01:40
 //	a-b  01:20             expires 02:20
 //
-// Snapshots every 30 minutes, --apply-every 1: before e-f (wm 00:00: x-y,
-// a-b, c-d), before the last a-b (wm 00:40: five edges), and at the end
-// (wm 01:20: x-y, c-d and the first a-b expired; a-b, e-f, g-h left). Had
+// Snapshots every 30 minutes: at 00:30 (x-y, a-b, c-d), at 01:00 (x-y, a-b
+// and c-d expired at 01:00 exactly: e-f and g-h left), and at the end
+// (01:20: a-b again, e-f, g-h). Had
 // the untimed events been put at the epoch, x-y would never count, and had
 // they been put at the end of time, c-d would not expire.
 func TestReplayUntimedEvents(t *testing.T) {
@@ -704,7 +740,7 @@ func TestReplayUntimedEvents(t *testing.T) {
 	for _, s := range ss {
 		got = append(got, fmt.Sprintf("%d@%s:%d edges,%d nodes", s.Seq, s.Watermark[11:16], s.Edges, s.Nodes))
 	}
-	want := []string{"3@00:00:3 edges,6 nodes", "5@00:40:5 edges,10 nodes", "6@01:20:3 edges,6 nodes"}
+	want := []string{"3@00:30:3 edges,6 nodes", "5@01:00:2 edges,4 nodes", "6@01:20:3 edges,6 nodes"}
 	if !slices.Equal(got, want) {
 		t.Fatalf("snapshots %v, want %v", got, want)
 	}

@@ -5,10 +5,9 @@ import (
 	"flag"
 	"log/slog"
 	"strings"
+	"time"
 
 	"shoal/ingest"
-	"shoal/snapshot"
-	"shoal/tracker"
 )
 
 // shoal run: the daemon. See daemon.go for the order of things and
@@ -29,18 +28,12 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	maxAge := fs.Duration("stream-max-age", 0, "when creating the ingest stream: drop messages older than this (0: keep)")
 	maxBytes := fs.Int64("stream-max-bytes", 0, "when creating the ingest stream: its size limit in bytes (0: none)")
 	httpAddr := fs.String("http", "127.0.0.1:7847", "HTTP address of /healthz, /readyz, /v1/stats, /metrics (\"\" or off: none)")
-	every := fs.Duration("snapshot-every", 0, "snapshot every DURATION of event time, at multiples since the epoch (0: no time rule)")
-	everyEvents := fs.Int("snapshot-every-events", 0, "snapshot every N events (a multiple of --apply-every; 0: no count rule)")
-	keep := fs.Int("snapshot-keep", 48, "snapshots kept in the store (at least 2)")
+	tf := addTimelineFlags(fs, "snapshot-", time.Hour)
+	keep := fs.Int("snapshot-keep", 48, "full snapshots kept in the store (at least 2; the lineage and the events are kept for --history)")
 	onExit := fs.Bool("snapshot-on-exit", false, "take a snapshot at shutdown if events came since the last")
-	window := fs.Duration("window", 0, "sliding window: an add counts for this long after its time (0: forever; fixed when the store is created)")
-	applyEvery := fs.Int("apply-every", 1000, "apply events to the tracker in chunks of N, counted from the store's creation (shoal replay --apply-every gives the same chunks)")
 	maxBatch := fs.Int("max-batch", 1000, "messages per batch: one synced commit and one ack each")
-	idleApply := fs.Duration("idle-apply", 0, "apply the remainder when nothing came for this long (default 1s; also at once when nothing is pending)")
-	resolution := fs.Float64("resolution", 1, "modularity resolution gamma (> 0)")
-	seed := fs.Uint64("seed", 0, "seed of the random node orders")
-	fullEvery := fs.Int("full-every", 0, "drift guard: a full warm-started pass every N chunks (0: never on a count)")
-	driftBound := fs.Float64("drift-bound", 0.25, "drift guard: a full warm-started pass once the weight changed since the last exceeds this fraction of the total (0: never; the same default as shoal replay)")
+	idleApply := fs.Duration("idle-apply", 0, "apply the pending events when nothing came for this long (default 1s; also at once when nothing is pending)")
+	trf := addTrackerFlags(fs, true)
 	mf := addMatchFlags(fs)
 	rebuild := fs.String("rebuild", "auto", "how the tracker is rebuilt at start: snapshot (the last snapshot's partition on the stored edges), static (from scratch), auto (snapshot when there is one)")
 	keyFile := fs.String("pseudonymize-key-file", "", "replace node ids at ingest by HMAC-SHA-256 pseudonyms under the key in FILE (at least 16 bytes; fixed when the store is created)")
@@ -75,39 +68,38 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return usagef("--graph %q: want 1..64 letters, digits, '-' or '_'", *graph)
 	case *keep < 2:
 		return usagef("--snapshot-keep %d: at least 2 (the last one is needed to classify the next)", *keep)
-	case *applyEvery < 1 || *maxBatch < 1:
-		return usagef("--apply-every and --max-batch must be at least 1")
-	case *everyEvents%*applyEvery != 0:
-		return usagef("--snapshot-every-events %d is not a multiple of --apply-every %d: snapshots are taken between chunks", *everyEvents, *applyEvery)
-	case *window < 0:
-		return usagef("--window %v: must not be negative", *window)
+	case *maxBatch < 1:
+		return usagef("--max-batch must be at least 1")
+	case *tf.history == 0:
+		return usagef("--history 0: the lineage must be kept for some time (default %v)", defaultHistory)
 	case *rebuild != "auto" && *rebuild != "snapshot" && *rebuild != "static":
 		return usagef("--rebuild %q: want auto, snapshot or static", *rebuild)
 	}
 	if err := nf.validate(); err != nil {
 		return err
 	}
-	topts := tracker.Options{Resolution: *resolution, Seed: *seed, FullEvery: *fullEvery, DriftBound: *driftBound}
-	if err := topts.Validate(); err != nil {
-		return usageError{err}
+	topts, err := trf.options()
+	if err != nil {
+		return err
 	}
-	trig := snapshot.Trigger{Every: *every, EveryEvents: *everyEvents}
-	if err := trig.Validate(); err != nil {
-		return usageError{err}
+	sched, err := tf.schedule()
+	if err != nil {
+		return err
 	}
 	eo, err := mf.options(nil)
 	if err != nil {
 		return err
 	}
 	o := &daemonOptions{
-		data: *data, graph: *graph, window: *window, windowSet: set["window"],
+		data: *data, graph: *graph, window: *tf.window, windowSet: set["window"],
 		natsURL: *nf.url, natsListen: *natsListen, nf: nf,
 		consumer: ingest.ConsumerOptions{
 			Stream: *stream, Subject: *subject, Durable: *durable,
 			StreamMaxAge: *maxAge, StreamMaxBytes: *maxBytes,
-			MaxBatch: *maxBatch, ApplyEvery: *applyEvery, IdleApply: *idleApply,
+			MaxBatch: *maxBatch, IdleApply: *idleApply,
 		},
-		httpAddr: *httpAddr, trigger: trig, snapshotKeep: *keep, snapshotOnExit: *onExit,
+		httpAddr: *httpAddr, schedule: sched, scheduleSet: set[tf.names[0]] || set[tf.names[1]],
+		applyEvery: *tf.applyEvery, history: *tf.history, snapshotKeep: *keep, snapshotOnExit: *onExit,
 		topts: topts, eo: eo, rebuild: *rebuild, keyFile: *keyFile, readyFile: *readyFile,
 	}
 	if strings.EqualFold(o.httpAddr, "off") {

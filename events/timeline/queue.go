@@ -1,4 +1,4 @@
-package ingest
+package timeline
 
 import (
 	"errors"
@@ -7,16 +7,15 @@ import (
 	"shoal/tracker"
 )
 
-// ChunkQueue runs a function on chunks of tracker changes in a goroutine
-// of its own, one chunk at a time and in the order they were pushed, so
-// that the consumer decodes, folds and commits the next batch while the
-// tracker works on the last one. The daemon and the ingest benchmark put
-// it between ConsumerOptions.Apply and the tracker; Wait catches up before
-// anything reads the tracker in the consumer's goroutine (a snapshot).
+// queue runs a function on batches of tracker changes in a goroutine of
+// its own, one batch at a time and in the order they were pushed, so that
+// the timeline's owner (the daemon's consumer) decodes, folds and commits
+// the next events while the tracker works on the last batch (Config.Async).
+// wait catches up before a snapshot reads the tracker.
 //
-// Push, Wait and Close are called from one goroutine (the consumer's);
-// Pending may be called from any.
-type ChunkQueue struct {
+// push, wait and close are called from the timeline's owner goroutine;
+// pending may be called from any.
+type queue struct {
 	fn   func([]tracker.Change) error
 	work chan []tracker.Change
 	free chan []tracker.Change
@@ -32,23 +31,23 @@ type ChunkQueue struct {
 	closed bool
 }
 
-// ErrQueueClosed is returned by a closed ChunkQueue.
-var ErrQueueClosed = errors.New("ingest: chunk queue closed")
+// errQueueClosed is returned by a closed queue.
+var errQueueClosed = errors.New("timeline: batch queue closed")
 
-// NewChunkQueue starts the goroutine. depth is how many chunks may wait
-// (Push blocks beyond it); zero means 4.
-func NewChunkQueue(depth int, fn func([]tracker.Change) error) *ChunkQueue {
+// newQueue starts the goroutine. depth is how many chunks may wait
+// (push blocks beyond it); zero means 4.
+func newQueue(depth int, fn func([]tracker.Change) error) *queue {
 	if depth <= 0 {
 		depth = 4
 	}
-	q := &ChunkQueue{fn: fn, work: make(chan []tracker.Change, depth), free: make(chan []tracker.Change, depth+1)}
+	q := &queue{fn: fn, work: make(chan []tracker.Change, depth), free: make(chan []tracker.Change, depth+1)}
 	q.mu.cond = sync.NewCond(&q.mu.Mutex)
 	q.wg.Add(1)
 	go q.loop()
 	return q
 }
 
-func (q *ChunkQueue) loop() {
+func (q *queue) loop() {
 	defer q.wg.Done()
 	for chs := range q.work {
 		q.mu.Lock()
@@ -73,12 +72,12 @@ func (q *ChunkQueue) loop() {
 	}
 }
 
-// Push queues a copy of chs (the caller may reuse chs at once). It returns
+// push queues a copy of chs (the caller may reuse chs at once). It returns
 // the error of an earlier chunk, if one failed: from then on nothing more
 // is applied.
-func (q *ChunkQueue) Push(chs []tracker.Change) error {
+func (q *queue) push(chs []tracker.Change) error {
 	if q.closed {
-		return ErrQueueClosed
+		return errQueueClosed
 	}
 	q.mu.Lock()
 	err := q.mu.err
@@ -97,9 +96,9 @@ func (q *ChunkQueue) Push(chs []tracker.Change) error {
 	return nil
 }
 
-// Wait blocks until every pushed chunk has been applied and returns the
+// wait blocks until every pushed chunk has been applied and returns the
 // first error of fn.
-func (q *ChunkQueue) Wait() error {
+func (q *queue) wait() error {
 	q.mu.Lock()
 	defer q.mu.Unlock()
 	for q.mu.chunks > 0 {
@@ -108,18 +107,18 @@ func (q *ChunkQueue) Wait() error {
 	return q.mu.err
 }
 
-// Pending returns the number of changes pushed and not yet applied.
-func (q *ChunkQueue) Pending() int {
+// pending returns the number of changes pushed and not yet applied.
+func (q *queue) pending() int {
 	q.mu.Lock()
 	defer q.mu.Unlock()
 	return q.mu.pending
 }
 
-// Close waits for the queued chunks, stops the goroutine and returns the
-// first error of fn. A second call returns ErrQueueClosed.
-func (q *ChunkQueue) Close() error {
+// close waits for the queued chunks, stops the goroutine and returns the
+// first error of fn. A second call returns errQueueClosed.
+func (q *queue) close() error {
 	if q.closed {
-		return ErrQueueClosed
+		return errQueueClosed
 	}
 	q.closed = true
 	close(q.work)

@@ -1,4 +1,4 @@
-package ingest
+package timeline
 
 import (
 	"errors"
@@ -7,14 +7,14 @@ import (
 	"shoal/tracker"
 )
 
-// TestChunkQueue: chunks are applied in push order, from copies (the
+// Testqueue: chunks are applied in push order, from copies (the
 // caller reuses its slice at once); Wait catches up; after a failure
 // nothing more is applied and the error comes back from Push, Wait and
 // Close.
-func TestChunkQueue(t *testing.T) {
+func TestQueue(t *testing.T) {
 	var got []uint32
 	fail := errors.New("boom")
-	q := NewChunkQueue(2, func(chs []tracker.Change) error {
+	q := newQueue(2, func(chs []tracker.Change) error {
 		for _, c := range chs {
 			if c.U == 9999 {
 				return fail
@@ -26,13 +26,13 @@ func TestChunkQueue(t *testing.T) {
 	buf := make([]tracker.Change, 0, 4)
 	for i := range 50 {
 		buf = append(buf[:0], tracker.Change{Op: tracker.OpAdd, U: uint32(2 * i), V: 1, W: 1}, tracker.Change{Op: tracker.OpAdd, U: uint32(2*i + 1), V: 1, W: 1})
-		if err := q.Push(buf); err != nil {
+		if err := q.push(buf); err != nil {
 			t.Fatal(err)
 		}
 		buf[0].U, buf[1].U = 1000, 1000 // reused: the queue holds a copy
 	}
-	if err := q.Wait(); err != nil || q.Pending() != 0 {
-		t.Fatalf("wait: %v, pending %d", err, q.Pending())
+	if err := q.wait(); err != nil || q.pending() != 0 {
+		t.Fatalf("wait: %v, pending %d", err, q.pending())
 	}
 	for i, u := range got {
 		if u != uint32(i) {
@@ -42,21 +42,21 @@ func TestChunkQueue(t *testing.T) {
 	if len(got) != 100 {
 		t.Fatalf("%d changes applied, want 100", len(got))
 	}
-	q.Push([]tracker.Change{{Op: tracker.OpAdd, U: 9999, V: 1, W: 1}})
-	q.Push([]tracker.Change{{Op: tracker.OpAdd, U: 200, V: 1, W: 1}})
-	if err := q.Wait(); !errors.Is(err, fail) {
+	q.push([]tracker.Change{{Op: tracker.OpAdd, U: 9999, V: 1, W: 1}})
+	q.push([]tracker.Change{{Op: tracker.OpAdd, U: 200, V: 1, W: 1}})
+	if err := q.wait(); !errors.Is(err, fail) {
 		t.Fatalf("wait after a failure: %v", err)
 	}
-	if err := q.Push(nil); !errors.Is(err, fail) {
+	if err := q.push(nil); !errors.Is(err, fail) {
 		t.Fatalf("push after a failure: %v", err)
 	}
 	if len(got) != 100 {
 		t.Fatalf("a chunk after the failure was applied (%d)", len(got))
 	}
-	if err := q.Close(); !errors.Is(err, fail) {
+	if err := q.close(); !errors.Is(err, fail) {
 		t.Fatalf("close: %v", err)
 	}
-	if err := q.Close(); !errors.Is(err, ErrQueueClosed) {
+	if err := q.close(); !errors.Is(err, errQueueClosed) {
 		t.Fatalf("second close: %v", err)
 	}
 }

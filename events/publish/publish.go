@@ -1,4 +1,8 @@
-package events
+// Package publish drains the lifecycle events of the store's outbox
+// (package events, key family 'v') to NATS JetStream. It is apart from
+// package events so that the events, their store and the timeline carry no
+// messaging code.
+package publish
 
 import (
 	"context"
@@ -7,6 +11,8 @@ import (
 	"github.com/cockroachdb/pebble/v2"
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
+
+	"shoal/events"
 )
 
 // Publisher drains the store's outbox (family 'v') to JetStream: each event
@@ -39,7 +45,7 @@ func (p *Publisher) Publish(ctx context.Context) (int, error) {
 	}
 	total := 0
 	for {
-		evs, err := Pending(p.DB, n)
+		evs, err := events.Pending(p.DB, n)
 		if err != nil || len(evs) == 0 {
 			return total, err
 		}
@@ -69,7 +75,7 @@ func (p *Publisher) Publish(ctx context.Context) (int, error) {
 		}
 		last := evs[len(evs)-1]
 		b := p.DB.NewBatch()
-		if err := MarkPublished(b, last.SnapshotID, last.Index); err != nil {
+		if err := events.MarkPublished(b, last.SnapshotID, last.Index); err != nil {
 			b.Close()
 			return total, err
 		}

@@ -1,13 +1,19 @@
-package events
+package publish
 
 import (
 	"context"
+	"path/filepath"
 	"testing"
 	"time"
 
+	"github.com/cockroachdb/pebble/v2"
 	"github.com/nats-io/nats-server/v2/server"
 	"github.com/nats-io/nats.go"
 	"github.com/nats-io/nats.go/jetstream"
+
+	"shoal/events"
+	"shoal/snapshot"
+	"shoal/tracker"
 )
 
 func runJetStream(t *testing.T) jetstream.JetStream {
@@ -47,13 +53,13 @@ func TestPublisher(t *testing.T) {
 		t.Fatal(err)
 	}
 	db := openDB(t)
-	a := snap(t, 1, nil, map[uint64][]int{1: span_(0, 4), 2: span_(5, 9), 3: span_(10, 20)})
-	b := snap(t, 2, nil, map[uint64][]int{1: span_(0, 9), 4: span_(10, 14), 5: span_(15, 20)})
-	c := snap(t, 3, nil, map[uint64][]int{1: span_(0, 9), 6: span_(30, 40)})
-	evAB, evBC := classify(t, a, b, nil), classify(t, b, c, nil)
+	a := part(t, 1, map[uint64][2]int{1: {0, 4}, 2: {5, 9}, 3: {10, 20}})
+	b := part(t, 2, map[uint64][2]int{1: {0, 9}, 4: {10, 14}, 5: {15, 20}})
+	c := part(t, 3, map[uint64][2]int{1: {0, 9}, 6: {30, 40}})
+	evAB, evBC := classify(t, a, b), classify(t, b, c)
 	batch := db.NewBatch()
-	PutAll(batch, 2, evAB)
-	PutAll(batch, 3, evBC)
+	events.PutAll(batch, 2, evAB)
+	events.PutAll(batch, 3, evBC)
 	mustCommit(t, batch)
 	want := len(evAB) + len(evBC)
 
@@ -62,7 +68,7 @@ func TestPublisher(t *testing.T) {
 		defer func() { recover() }()
 		crash.Publish(ctx)
 	}()
-	if pend, _ := Pending(db, 0); len(pend) != want {
+	if pend, _ := events.Pending(db, 0); len(pend) != want {
 		t.Fatalf("%d pending after the crash, want all %d (the cursor did not move)", len(pend), want)
 	}
 	p := &Publisher{JS: js, DB: db, Prefix: "shoal.events.g", Batch: 4}
@@ -77,7 +83,7 @@ func TestPublisher(t *testing.T) {
 	if info.State.Msgs != uint64(want) {
 		t.Fatalf("stream holds %d messages, want each of the %d events once", info.State.Msgs, want)
 	}
-	all := append(append([]Event(nil), evAB...), evBC...)
+	all := append(append([]events.Event(nil), evAB...), evBC...)
 	for i := range all {
 		m, err := st.GetMsg(ctx, uint64(i+1))
 		if err != nil {
@@ -89,19 +95,77 @@ func TestPublisher(t *testing.T) {
 	}
 
 	tb := db.NewBatch()
-	upto, err := Trim(tb, db, 3)
+	upto, err := events.Trim(tb, db, 3)
 	if err != nil || upto != 3 {
 		t.Fatalf("trim up to %d (%v), want 3", upto, err)
 	}
 	mustCommit(t, tb)
-	if l, _ := List(db, 2); len(l) != 0 {
+	if l, _ := events.List(db, 2); len(l) != 0 {
 		t.Fatalf("%d events of snapshot 2 left after trim", len(l))
 	}
-	if l, _ := List(db, 3); len(l) != len(evBC) {
+	if l, _ := events.List(db, 3); len(l) != len(evBC) {
 		t.Fatalf("%d events of snapshot 3 left, want %d", len(l), len(evBC))
 	}
 	// Nothing is pending: trimming did not move the cursor back.
-	if pend, _ := Pending(db, 0); len(pend) != 0 {
+	if pend, _ := events.Pending(db, 0); len(pend) != 0 {
 		t.Fatalf("%d pending after trim", len(pend))
+	}
+}
+
+// part freezes a snapshot of the given communities (id -> members lo..hi);
+// the figures do not matter to publishing.
+func part(t *testing.T, id uint64, parts map[uint64][2]int) *snapshot.Snapshot {
+	t.Helper()
+	n := 0
+	for _, r := range parts {
+		n = max(n, r[1]+1)
+	}
+	mem := make([]uint64, n)
+	for i := range mem {
+		mem[i] = tracker.NoCommunity
+	}
+	var stats []tracker.CommunityStats
+	for c, r := range parts {
+		for v := r[0]; v <= r[1]; v++ {
+			mem[v] = c
+		}
+		stats = append(stats, tracker.CommunityStats{ID: c, Size: r[1] - r[0] + 1})
+	}
+	s, err := snapshot.Freeze(snapshot.Header{ID: id, Graph: "test", Watermark: int64(id) * 3600_000}, mem, stats)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s
+}
+
+func classify(t *testing.T, a, b *snapshot.Snapshot) []events.Event {
+	t.Helper()
+	evs, err := events.Classify(a, b, &events.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return evs
+}
+
+type quiet struct{}
+
+func (quiet) Infof(string, ...any)           {}
+func (quiet) Errorf(string, ...any)          {}
+func (quiet) Fatalf(format string, a ...any) { panic(format) }
+
+func openDB(t *testing.T) *pebble.DB {
+	t.Helper()
+	db, err := pebble.Open(filepath.Join(t.TempDir(), "db"), &pebble.Options{Logger: quiet{}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { db.Close() })
+	return db
+}
+
+func mustCommit(t *testing.T, b *pebble.Batch) {
+	t.Helper()
+	if err := b.Commit(pebble.Sync); err != nil {
+		t.Fatal(err)
 	}
 }

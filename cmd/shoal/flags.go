@@ -1,0 +1,121 @@
+package main
+
+import (
+	"flag"
+	"time"
+
+	"shoal/events"
+	"shoal/events/timeline"
+	"shoal/tracker"
+)
+
+// Flag groups: each is defined here once and used by every command that
+// takes it, so that a flag means the same everywhere.
+
+// trackerFlags are the optimiser's flags (detect, diff, replay, run); the
+// drift guard only where a tracker runs incrementally.
+type trackerFlags struct {
+	resolution, driftBound *float64
+	seed                   *uint64
+	fullEvery              *int
+}
+
+func addTrackerFlags(fs *flag.FlagSet, incremental bool) *trackerFlags {
+	f := &trackerFlags{
+		resolution: fs.Float64("resolution", 1, "modularity resolution gamma (> 0); above 1 favours smaller communities"),
+		seed:       fs.Uint64("seed", 0, "seed of the random node orders"),
+	}
+	if incremental {
+		f.fullEvery = fs.Int("full-every", 0, "drift guard: a full warm-started pass every N batches (0: never on a count)")
+		f.driftBound = fs.Float64("drift-bound", 0.25, "drift guard: a full warm-started pass once the weight changed since the last one exceeds this fraction of the total (0: never)")
+	}
+	return f
+}
+
+func (f *trackerFlags) options() (tracker.Options, error) {
+	o := tracker.Options{Resolution: *f.resolution, Seed: *f.seed}
+	if f.fullEvery != nil {
+		o.FullEvery, o.DriftBound = *f.fullEvery, *f.driftBound
+	}
+	if err := o.Validate(); err != nil {
+		return o, usageError{err}
+	}
+	return o, nil
+}
+
+// matchFlags are the event-matching flags (diff, replay, run).
+type matchFlags struct {
+	minSize, maxListed *int
+	theta, growth      *float64
+	members            *bool
+}
+
+func addMatchFlags(fs *flag.FlagSet) *matchFlags {
+	return &matchFlags{
+		minSize:   fs.Int("min-size", events.DefaultMinSize, "smallest community size that takes part in events"),
+		theta:     fs.Float64("theta", events.DefaultTheta, "smallest Jaccard similarity of a continuation, in (0, 1]"),
+		growth:    fs.Float64("growth", events.DefaultGrowthFraction, "relative size change that makes a continuation a grow or shrink, in (0, 1)"),
+		maxListed: fs.Int("max-listed", events.DefaultMaxListed, "cap on the joined and left member lists of an event (negative: none listed)"),
+		members:   fs.Bool("members", false, "put the full member lists of the communities before and after into each event"),
+	}
+}
+
+func (m *matchFlags) options(name func(uint32) string) (events.Options, error) {
+	o := events.Options{
+		MinSize: *m.minSize, Theta: *m.theta, GrowthFraction: *m.growth,
+		MaxListed: *m.maxListed, Members: *m.members, Name: name,
+	}
+	if o.MaxListed == 0 {
+		o.MaxListed = -1 // 0 means the default in events.Options; here it means none
+	}
+	if err := o.Validate(); err != nil {
+		return o, usageError{err}
+	}
+	return o, nil
+}
+
+// timelineFlags are the flags of the timeline (replay, run): when to
+// snapshot, the batch size, the window, and how long lineage is kept.
+// prefix is "" for replay (--every) and "snapshot-" for the daemon
+// (--snapshot-every), whose other flags are about the store.
+type timelineFlags struct {
+	every       *time.Duration
+	everyEvents *int
+	applyEvery  *int
+	window      *time.Duration
+	history     *time.Duration
+	names       [2]string // the flag names of every and every-events
+}
+
+// defaultHistory is how long lineage is kept by default: months, as a
+// fraud review looks back over a quarter (common practice).
+const defaultHistory = 90 * 24 * time.Hour
+
+func addTimelineFlags(fs *flag.FlagSet, prefix string, defEvery time.Duration) *timelineFlags {
+	f := &timelineFlags{names: [2]string{prefix + "every", prefix + "every-events"}}
+	f.every = fs.Duration(f.names[0], defEvery, "snapshot at every multiple of DURATION of event time since the Unix epoch (UTC); 0: no time rule")
+	f.everyEvents = fs.Int(f.names[1], 0, "also snapshot once N events came since the last snapshot (0: no count rule)")
+	f.applyEvery = fs.Int("apply-every", 1000, "apply events to the tracker in batches of N (a speed knob: a batch also ends at every snapshot)")
+	f.window = fs.Duration("window", 0, "sliding window: an add counts for this long after its time (0: forever)")
+	f.history = fs.Duration("history", defaultHistory, "keep the lineage of communities (births, deaths, merges, splits, sizes) and the events for this long of event time, whatever snapshots are kept")
+	return f
+}
+
+func (f *timelineFlags) schedule() (timeline.Schedule, error) {
+	s := timeline.Schedule{Every: *f.every, EveryEvents: *f.everyEvents}
+	switch {
+	case *f.every < 0 || (*f.every > 0 && *f.every < time.Millisecond):
+		return s, usagef("--%s %v: must be 0 or at least 1ms", f.names[0], *f.every)
+	case *f.everyEvents < 0:
+		return s, usagef("--%s %d: must not be negative", f.names[1], *f.everyEvents)
+	case *f.applyEvery < 1:
+		return s, usagef("--apply-every %d: must be at least 1", *f.applyEvery)
+	case *f.window < 0:
+		return s, usagef("--window %v: must not be negative", *f.window)
+	case *f.window > 0 && *f.window < time.Millisecond:
+		return s, usagef("--window %v: must be at least 1ms", *f.window)
+	case *f.history < 0:
+		return s, usagef("--history %v: must not be negative", *f.history)
+	}
+	return s, nil
+}
