@@ -122,6 +122,18 @@ func List(r pebble.Reader, snapshotID uint64) ([]Stored, error) {
 	return scan(r, lower, upper, 0)
 }
 
+// Between returns the stored events whose later snapshot id is in
+// [from, to] (to 0: no upper end), in key order: every event kept, also
+// those of snapshots that retention has dropped (the daemon keeps events
+// for --history, whatever --snapshot-keep).
+func Between(r pebble.Reader, from, to uint64) ([]Stored, error) {
+	upper := []byte{Prefix + 1}
+	if to != 0 && to != math.MaxUint64 {
+		upper = eventKey(to+1, 0)
+	}
+	return scan(r, eventKey(from, 0), upper, 0)
+}
+
 func scan(r pebble.Reader, lower, upper []byte, max int) ([]Stored, error) {
 	it, err := r.NewIter(&pebble.IterOptions{LowerBound: lower, UpperBound: upper})
 	if err != nil {

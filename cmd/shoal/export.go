@@ -14,11 +14,13 @@ import (
 	"shoal/snapshot"
 )
 
-// shoal export edges|nodes|snapshots|snapshot ID|events [ID] --data DIR:
-// print the stored state with the daemon stopped (the store is opened
-// read-only; a running daemon holds its lock).
+// shoal export edges|nodes|snapshots|snapshot ID|events [ID]|history
+// --data DIR: print the stored state with the daemon stopped (the store is
+// opened read-only; a running daemon holds its lock). history is the
+// lineage kept for --history (events.History, JSON lines): it outlives the
+// snapshots.
 func runExport(ctx context.Context, e *env, args []string) error {
-	fs := newFlags(e, "export", "edges|nodes|snapshots|snapshot ID|latest|events [ID] --data DIR [options]")
+	fs := newFlags(e, "export", "edges|nodes|snapshots|snapshot ID|latest|events [ID]|history --data DIR [options]")
 	data := fs.String("data", "", "data directory of the daemon (required)")
 	asJSON := fs.Bool("json", false, "JSON lines instead of TSV")
 	out := fs.String("out", "", "write to FILE instead of stdout (replaced only when complete)")
@@ -30,13 +32,13 @@ func runExport(ctx context.Context, e *env, args []string) error {
 		return usagef("--data DIR is required")
 	}
 	if len(pos) == 0 {
-		return usagef("what to export: edges, nodes, snapshots, snapshot ID (or latest), events [ID]")
+		return usagef("what to export: edges, nodes, snapshots, snapshot ID (or latest), events [ID], history")
 	}
 	what := pos[0]
 	var snapID uint64
 	latest := false
 	switch what {
-	case "edges", "nodes", "snapshots":
+	case "edges", "nodes", "snapshots", "history":
 		if len(pos) != 1 {
 			return usagef("export %s takes no argument", what)
 		}
@@ -55,7 +57,7 @@ func runExport(ctx context.Context, e *env, args []string) error {
 			}
 		}
 	default:
-		return usagef("unknown export %q: want edges, nodes, snapshots, snapshot ID or events", what)
+		return usagef("unknown export %q: want edges, nodes, snapshots, snapshot ID, events or history", what)
 	}
 	s, err := ingest.OpenStore(ingest.StoreDir(*data), &ingest.StoreOptions{ReadOnly: true, AnyWindow: true, AnyKey: true})
 	if err != nil {
@@ -72,6 +74,8 @@ func runExport(ctx context.Context, e *env, args []string) error {
 			return exportSnapshots(w, s, *asJSON)
 		case "snapshot":
 			return exportSnapshot(w, s, snapID, latest, *asJSON)
+		case "history":
+			return exportHistory(w, s)
 		default:
 			return exportEvents(w, s, snapID, latest)
 		}
@@ -84,6 +88,26 @@ func runExport(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	return bw.Flush()
+}
+
+// exportHistory prints the lineage history as JSON lines (schema
+// events.HistorySchema): the snapshot index, one line per community with
+// its points, one per node with its community and since when.
+func exportHistory(w io.Writer, s *ingest.Store) error {
+	nm, err := names(s)
+	if err != nil {
+		return err
+	}
+	h, err := events.LoadHistory(s.DB(), &events.HistoryOptions{})
+	if err != nil {
+		return err
+	}
+	return h.WriteJSONLFrom(w, s.DB(), func(v uint32) string {
+		if int(v) < len(nm) {
+			return nm[v]
+		}
+		return strconv.FormatUint(uint64(v), 10)
+	})
 }
 
 // names reads the dictionary: internal id -> external id.
@@ -224,34 +248,27 @@ func exportSnapshot(w io.Writer, s *ingest.Store, id uint64, latest, asJSON bool
 // exportEvents prints the stored lifecycle events (of one snapshot, or all
 // that retention kept) as JSON lines.
 func exportEvents(w io.Writer, s *ingest.Store, id uint64, latest bool) error {
-	var ids []uint64
+	var evs []events.Stored
+	var err error
 	switch {
 	case latest:
-		snap, err := snapshot.Latest(s.DB())
-		if err != nil {
-			return err
+		snap, lerr := snapshot.Latest(s.DB())
+		if lerr != nil {
+			return lerr
 		}
-		ids = []uint64{snap.ID}
+		evs, err = events.List(s.DB(), snap.ID)
 	case id != 0:
-		ids = []uint64{id}
+		evs, err = events.List(s.DB(), id)
 	default:
-		hs, err := snapshot.List(s.DB())
-		if err != nil {
-			return err
-		}
-		for _, h := range hs {
-			ids = append(ids, h.ID)
-		}
+		// Every event kept (--history), also those of dropped snapshots.
+		evs, err = events.Between(s.DB(), 0, 0)
 	}
-	for _, id := range ids {
-		evs, err := events.List(s.DB(), id)
-		if err != nil {
+	if err != nil {
+		return err
+	}
+	for i := range evs {
+		if _, err := w.Write(append(evs[i].Raw, '\n')); err != nil {
 			return err
-		}
-		for i := range evs {
-			if _, err := w.Write(append(evs[i].Raw, '\n')); err != nil {
-				return err
-			}
 		}
 	}
 	return nil

@@ -10,7 +10,9 @@ import (
 	"io"
 	"log/slog"
 	"os"
+	"slices"
 	"strconv"
+	"strings"
 	"sync/atomic"
 	"time"
 
@@ -44,8 +46,8 @@ func runPublish(ctx context.Context, e *env, args []string) error {
 	nf := addNATSFlags(fs, nats.DefaultURL, "NATS server URL(s), comma separated")
 	graph := fs.String("graph", "default", "graph name: the default subject and stream follow from it")
 	subject := fs.String("subject", "", "subject to publish to (default shoal.edges.<graph>)")
-	stream := fs.String("stream", "", "ingest stream, created if absent unless --create-stream=false (default SHOAL_EDGES_<graph>)")
-	create := fs.Bool("create-stream", true, "create the ingest stream if it does not exist (as shoal run would)")
+	stream := fs.String("stream", "", "ingest stream: it must exist (shoal run creates it), unless --create-stream (default SHOAL_EDGES_<graph>)")
+	create := fs.Bool("create-stream", false, "create the ingest stream if it does not exist (as shoal run would), for publishing before the daemon starts")
 	perMsg := fs.Int("lines-per-message", 1, "lines per message (a message may carry many events)")
 	pending := fs.Int("max-pending", 4096, "largest number of messages waiting for their publish ack")
 	idPrefix := fs.String("id-prefix", "", "set the message id PREFIX-<n> (n: message number from 1), so that publishing the same file again within the stream's duplicate window sends nothing twice")
@@ -96,6 +98,8 @@ func runPublish(ctx context.Context, e *env, args []string) error {
 		if _, err := ingest.EnsureStream(ctx, js, co.StreamConfig()); err != nil {
 			return err
 		}
+	} else if err := streamExists(ctx, js, co); err != nil {
+		return err
 	}
 
 	var bar *progressbar.ProgressBar
@@ -245,4 +249,42 @@ func (a *ackTally) settle(ctx context.Context, n int) error {
 	a.done += n
 	a.futs = append(a.futs[:0], a.futs[n:]...)
 	return nil
+}
+
+// streamExists checks that the ingest stream of the graph is on the
+// server and takes the subject: publishing into a stream no daemon reads
+// would succeed and do nothing, so it is refused (bad usage: exit 2) with
+// the flags that fix it.
+func streamExists(ctx context.Context, js jetstream.JetStream, co ingest.ConsumerOptions) error {
+	rctx, cancel := context.WithTimeout(ctx, 10*time.Second)
+	defer cancel()
+	st, err := js.Stream(rctx, co.Stream)
+	switch {
+	case errors.Is(err, jetstream.ErrStreamNotFound):
+		return usagef("graph %q: the server has no stream %s; start `shoal run --graph %s` first, or give the daemon's --graph (or --stream), or pass --create-stream to create it now",
+			co.Graph, co.Stream, co.Graph)
+	case err != nil:
+		return fmt.Errorf("stream %s: %w", co.Stream, err)
+	}
+	if subs := st.CachedInfo().Config.Subjects; !slices.ContainsFunc(subs, func(s string) bool { return subjectMatches(s, co.Subject) }) {
+		return usagef("stream %s takes %v, not %s: give the daemon's --subject, or --stream", co.Stream, subs, co.Subject)
+	}
+	return nil
+}
+
+// subjectMatches reports whether subject falls under the stream subject
+// pattern (NATS wildcards: * one token, > the rest).
+func subjectMatches(pattern, subject string) bool {
+	p, s := strings.Split(pattern, "."), strings.Split(subject, ".")
+	for i, tok := range p {
+		switch {
+		case tok == ">":
+			return len(s) > i
+		case i >= len(s):
+			return false
+		case tok != "*" && tok != s[i]:
+			return false
+		}
+	}
+	return len(p) == len(s)
 }
