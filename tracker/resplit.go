@@ -16,10 +16,11 @@ const resplitLoss = 0.2
 // Chosen default: a ring that forms edge by edge next to a group, a few
 // edges a batch, is glued to the group by local moving (each of its nodes
 // is better off with the others than alone, and the others already sit in
-// the group), and only a look at the whole community pulls it apart; at
-// 1.25 a community is looked at O(log) times as it grows, each look costing
-// its volume.
-const resplitGrowth = 1.25
+// the group), and only a look at the whole community pulls it apart. At 2
+// a community is looked at O(log) times as it grows, each look costing its
+// volume: measured with shoal-bench replay (10^6 events, daily snapshots),
+// 1.25 cost 20% of the replay time, 2 about 5%.
+const resplitGrowth = 2
 
 // resplitPass re-optimises, from singletons, every community that lost a
 // large share of its internal weight in the batch, or that grew by a large

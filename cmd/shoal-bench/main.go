@@ -5,6 +5,7 @@
 //	shoal-bench static [--max-edges N] [--json]
 //	shoal-bench incremental [--max-edges N] [--batches K] [--json]
 //	shoal-bench accuracy [--n N] [--runs K] [--json]
+//	shoal-bench ingest|replay|history [options] [--json]
 package main
 
 import (
@@ -37,6 +38,8 @@ func main() {
 		err = runIngest(ctx, os.Args[2:], os.Stdout)
 	case "replay":
 		err = runReplay(ctx, os.Args[2:], os.Stdout)
+	case "history":
+		err = runHistory(ctx, os.Args[2:], os.Stdout)
 	case "help", "-h", "--help":
 		usage(os.Stdout)
 		return
@@ -51,7 +54,7 @@ func main() {
 }
 
 func usage(w io.Writer) {
-	fmt.Fprintln(w, "usage: shoal-bench static|incremental|accuracy [options] [--json]")
+	fmt.Fprintln(w, "usage: shoal-bench static|incremental|accuracy|ingest|replay|history [options] [--json]")
 }
 
 // emitter prints rows as a table or as JSON lines.

@@ -12,6 +12,7 @@ import (
 	"time"
 
 	"shoal/events"
+	"shoal/events/timeline"
 	"shoal/ingest"
 	"shoal/snapshot"
 	"shoal/tracker"
@@ -19,17 +20,19 @@ import (
 
 // shoal diff OLD NEW
 //
-// The communities of OLD come from a static run (seeded); those of NEW from
-// a run warm-started from OLD's partition, node by node through the
-// external ids (tracker.DetectFrom), so that regions that did not change
-// keep their community ids. Each partition is then settled: warm-started
-// passes are repeated until it stops changing (at most 10), so that a file
-// diffed against itself gives only continue events. The two partitions are frozen as snapshots 1
-// and 2 in one node-id space (OLD's ids, then the ids only NEW has) and
-// classified by package events; the events go out as JSON lines. Snapshot
-// times are --old-time and --new-time (the Unix epoch when not given: a
-// file has no time of its own, and the file's modification time would make
-// the output depend on where the file was copied).
+// The communities of OLD come from a static run (seeded), settled:
+// warm-started passes are repeated until it stops changing (at most 10).
+// The timeline (package events/timeline) then takes that partition as
+// snapshot 1, applies the changes that turn OLD into NEW (a set for every
+// pair whose weight differs, a delete for every pair NEW lacks, a removal
+// for every node NEW does not name) as one batch, with the drift guard
+// (--drift-bound) running a full warm-started pass when much of the weight
+// changed, and takes snapshot 2: the events are those the daemon would
+// report for that change, in one node-id space (OLD's ids, then the ids
+// only NEW has). A file diffed against itself gives only continue events.
+// Snapshot times are --old-time and --new-time (the Unix epoch when not
+// given: a file has no time of its own, and the file's modification time
+// would make the output depend on where the file was copied).
 
 // parseTimeFlag reads an RFC 3339 time or Unix milliseconds; "" is 0.
 func parseTimeFlag(flagName, s string) (int64, error) {
@@ -128,7 +131,7 @@ type diffSummary struct {
 
 func runDiff(ctx context.Context, e *env, args []string) error {
 	fs := newFlags(e, "diff", "OLD NEW [options]")
-	trf := addTrackerFlags(fs, false)
+	trf := addTrackerFlags(fs, true)
 	mf := addMatchFlags(fs)
 	graph := fs.String("graph", "", "graph name in the events (default: NEW's file name)")
 	eventsOut := fs.String("events-out", "", "write the events to this file instead of stdout")
@@ -177,39 +180,19 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	}
 	old, cur := loaded[0], loaded[1]
 	stop := spinner(e, "optimising")
-	gOld := tracker.NewGraph(old.Dict.Len(), old.Edges)
-	pOld := settle(gOld, &topts, tracker.Detect(gOld, &topts))
-	// NEW's ids in the common id space (OLD's, then NEW's own), and the warm
-	// start: each node of NEW starts in its community of OLD.
+	// One node-id space: OLD's ids, then the ids only NEW has.
 	nOld := old.Dict.Len()
 	uid := make([]uint32, cur.Dict.Len())
-	prev := make([]uint64, cur.Dict.Len())
 	var only []uint32 // NEW ids without an OLD id, in NEW id order
 	kept := 0
 	for i := range uid {
 		if oid, ok := old.Dict.Lookup(cur.Dict.Name(uint32(i))); ok {
-			uid[i], prev[i] = oid, pOld.Membership[oid]
+			uid[i] = oid
 			kept++
 			continue
 		}
-		uid[i], prev[i] = uint32(nOld+len(only)), tracker.NoCommunity
+		uid[i] = uint32(nOld + len(only))
 		only = append(only, uint32(i))
-	}
-	gNew := tracker.NewGraph(cur.Dict.Len(), cur.Edges)
-	pNew := settle(gNew, &topts, tracker.DetectFrom(gNew, &topts, prev))
-	if err := ctx.Err(); err != nil {
-		stop()
-		return err
-	}
-	n := nOld + len(only)
-	memOld := make([]uint64, n)
-	memNew := make([]uint64, n)
-	for i := range memOld {
-		memOld[i], memNew[i] = tracker.NoCommunity, tracker.NoCommunity
-	}
-	copy(memOld, pOld.Membership)
-	for i, c := range pNew.Membership {
-		memNew[uid[i]] = c
 	}
 	nameOf := func(v uint32) string {
 		if int(v) < nOld {
@@ -222,31 +205,57 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 		stop()
 		return err
 	}
-	sA, err := snapshot.Freeze(snapshot.Header{
-		ID: 1, Graph: name, Watermark: tOld, Time: tOld, Modularity: pOld.Modularity, Gamma: topts.Resolution,
-		TotalWeight: gOld.TotalWeight(), Edges: gOld.Edges(),
-	}, memOld, pOld.Communities)
+	gOld := tracker.NewGraph(nOld, old.Edges)
+	pOld := settle(gOld, &topts, tracker.Detect(gOld, &topts))
+	trOld, err := tracker.NewWithPartition(gOld, &topts, pOld.Membership, 1)
 	if err != nil {
 		stop()
-		return fmt.Errorf("freeze %s: %w", pos[0], err)
-	}
-	sB, err := snapshot.Freeze(snapshot.Header{
-		ID: 2, Graph: name, Watermark: tNew, Time: tNew, Modularity: pNew.Modularity, Gamma: topts.Resolution,
-		TotalWeight: gNew.TotalWeight(), Edges: gNew.Edges(),
-	}, memNew, pNew.Communities)
-	if err != nil {
-		stop()
-		return fmt.Errorf("freeze %s: %w", pos[1], err)
-	}
-	evs, err := events.Classify(sA, sB, &eo)
-	stop()
-	if err != nil {
 		return err
 	}
+	// The timeline takes OLD's partition as snapshot 1, the changes that
+	// turn OLD into NEW as one event, and snapshot 2 after it: the events
+	// are those the daemon would report for that change.
+	var snaps []*snapshot.Snapshot
+	var evs []events.Event
+	tl, err := timeline.New(timeline.Config{Graph: name, Match: eo}, trOld, nil, nil, timeline.NewState(),
+		timeline.SinkFunc(func(s *snapshot.Snapshot, e []events.Event, _ *events.History) error {
+			snaps = append(snaps, s)
+			evs = e
+			return nil
+		}))
+	if err != nil {
+		stop()
+		return usageError{err}
+	}
+	if err := tl.At(tOld); err != nil {
+		stop()
+		return err
+	}
+	if _, err := tl.Snapshot(tOld); err != nil {
+		stop()
+		return err
+	}
+	if err := tl.At(tNew); err != nil {
+		stop()
+		return err
+	}
+	if err := tl.Add(diffChanges(gOld, cur.Edges, uid, nOld, kept)); err != nil {
+		stop()
+		return err
+	}
+	if _, err := tl.Snapshot(tNew); err != nil {
+		stop()
+		return err
+	}
+	stop()
+	if err := ctx.Err(); err != nil {
+		return err
+	}
+	sA, sB := snaps[0], snaps[1]
 	sum := diffSummary{
 		Graph: name, Resolution: topts.Resolution, Seed: topts.Seed, MinSize: eo.MinSize,
-		Old:       side(pos[0], gOld, sA, eo.MinSize),
-		New:       side(pos[1], gNew, sB, eo.MinSize),
+		Old:       side(pos[0], sA, eo.MinSize),
+		New:       side(pos[1], sB, eo.MinSize),
 		NodesKept: kept, NodesAdded: len(only), NodesRemoved: nOld - kept, Events: len(evs),
 	}
 	for i := range evs {
@@ -265,6 +274,50 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	fmt.Fprintf(e.stderr, "nodes: %d in both, %d only in NEW, %d only in OLD\n", kept, len(only), nOld-kept)
 	fmt.Fprintf(e.stderr, "%d events: %s\n", sum.Events, sum.ByType.String())
 	return nil
+}
+
+// diffChanges returns the tracker changes that turn gOld into NEW's edges
+// (in NEW's ids, uid maps them to the common space): a set for every pair
+// whose weight differs, a delete for every pair NEW lacks, and a node
+// removal for every OLD node that NEW does not name. Deterministic: NEW's
+// edges in their order, then OLD's in node order.
+func diffChanges(gOld *tracker.Graph, newEdges []tracker.Edge, uid []uint32, nOld, kept int) []tracker.Change {
+	var chs []tracker.Change
+	inNew := make(map[[2]uint32]bool, len(newEdges))
+	for _, e := range newEdges {
+		u, v := uid[e.U], uid[e.V]
+		if u > v {
+			u, v = v, u
+		}
+		inNew[[2]uint32{u, v}] = true
+		if int(v) >= nOld || gOld.Weight(u, v) != e.W {
+			chs = append(chs, tracker.Change{Op: tracker.OpSet, U: u, V: v, W: e.W})
+		}
+	}
+	named := make([]bool, nOld)
+	for _, u := range uid {
+		if int(u) < nOld {
+			named[u] = true
+		}
+	}
+	for u := range uint32(nOld) {
+		if gOld.SelfLoop(u) > 0 && !inNew[[2]uint32{u, u}] {
+			chs = append(chs, tracker.Change{Op: tracker.OpDelete, U: u, V: u})
+		}
+		gOld.Neighbours(u, func(v uint32, _ float64) {
+			if u < v && !inNew[[2]uint32{u, v}] {
+				chs = append(chs, tracker.Change{Op: tracker.OpDelete, U: u, V: v})
+			}
+		})
+	}
+	if kept < nOld {
+		for u := range nOld {
+			if !named[u] && gOld.Has(uint32(u)) {
+				chs = append(chs, tracker.Change{Op: tracker.OpRemoveNode, U: uint32(u)})
+			}
+		}
+	}
+	return chs
 }
 
 // settleRuns bounds the warm-started passes of settle.
@@ -286,8 +339,8 @@ func settle(g *tracker.Graph, o *tracker.Options, p *tracker.Partition) *tracker
 	return p
 }
 
-func side(file string, g *tracker.Graph, s *snapshot.Snapshot, minSize int) graphSide {
-	gs := graphSide{File: file, Nodes: g.Nodes(), Edges: g.Edges(), TotalWeight: g.TotalWeight(),
+func side(file string, s *snapshot.Snapshot, minSize int) graphSide {
+	gs := graphSide{File: file, Nodes: s.Nodes, Edges: s.Edges, TotalWeight: s.TotalWeight,
 		Modularity: s.Modularity, Communities: len(s.Communities)}
 	gs.Eligible = eligible(s, minSize)
 	return gs
