@@ -166,6 +166,6 @@ func runHistory(ctx context.Context, args []string, w io.Writer) error {
 
 type quietLog struct{}
 
-func (quietLog) Infof(string, ...any)            {}
-func (quietLog) Errorf(string, ...any)           {}
+func (quietLog) Infof(string, ...any)           {}
+func (quietLog) Errorf(string, ...any)          {}
 func (quietLog) Fatalf(format string, a ...any) { panic(fmt.Sprintf(format, a...)) }
