@@ -114,8 +114,8 @@ func (f *timelineFlags) schedule() (timeline.Schedule, error) {
 		return s, usagef("--window %v: must not be negative", *f.window)
 	case *f.window > 0 && *f.window < time.Millisecond:
 		return s, usagef("--window %v: must be at least 1ms", *f.window)
-	case *f.history < 0:
-		return s, usagef("--history %v: must not be negative", *f.history)
+	case *f.history <= 0:
+		return s, usagef("--history %v: the lineage must be kept for some time (default %v)", *f.history, defaultHistory)
 	}
 	return s, nil
 }

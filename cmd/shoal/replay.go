@@ -153,9 +153,6 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	if sched.Off() {
 		return usagef("no snapshot schedule: give --every DURATION (event time, e.g. 24h) and/or --every-events N")
 	}
-	if *tf.history == 0 {
-		return usagef("--history 0: the lineage must be kept for some time (default %v)", defaultHistory)
-	}
 	lopts, err := lo.options(pos[0])
 	if err != nil {
 		return err

@@ -70,8 +70,6 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		return usagef("--snapshot-keep %d: at least 2 (the last one is needed to classify the next)", *keep)
 	case *maxBatch < 1:
 		return usagef("--max-batch must be at least 1")
-	case *tf.history == 0:
-		return usagef("--history 0: the lineage must be kept for some time (default %v)", defaultHistory)
 	case *rebuild != "auto" && *rebuild != "snapshot" && *rebuild != "static":
 		return usagef("--rebuild %q: want auto, snapshot or static", *rebuild)
 	}
