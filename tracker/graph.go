@@ -26,6 +26,7 @@ type Graph struct {
 	self  []float64 // self-loop weight as given (A_ii = 2*self)
 	k     []float64 // weighted degree
 	alive []bool    // node present
+	nw    []float64 // node weights of the CPM objective; nil means all 1
 	m2    float64   // sum of k = 2m
 	edges int       // undirected edges, loops included
 	live  int       // live slab entries
@@ -214,7 +215,53 @@ func (g *Graph) Grow(n int) {
 		g.self = append(g.self, 0)
 		g.k = append(g.k, 0)
 		g.alive = append(g.alive, false)
+		if g.nw != nil {
+			g.nw = append(g.nw, 1)
+		}
 	}
+}
+
+// NodeWeight returns the weight of node i in the CPM objective (1 unless
+// set): a community of node weights n_1..n_s counts n(n-1)/2 pairs, n
+// their sum (doc.go, Objective).
+func (g *Graph) NodeWeight(i uint32) float64 {
+	if g.nw == nil {
+		return 1
+	}
+	return g.nw[i]
+}
+
+// SetNodeWeight sets the CPM weight of node i (a node that stands for an
+// aggregate of w accounts, say). It panics on a weight that is not finite
+// and positive: callers validate input first. A Tracker reads node weights
+// when it is built; set them before.
+func (g *Graph) SetNodeWeight(i uint32, w float64) {
+	if !(w > 0) || math.IsInf(w, 0) {
+		panic(fmt.Sprintf("tracker: node %d weight %v", i, w))
+	}
+	if g.nw == nil {
+		if w == 1 {
+			return
+		}
+		g.nw = make([]float64, len(g.deg))
+		for j := range g.nw {
+			g.nw[j] = 1
+		}
+	}
+	g.nw[i] = w
+}
+
+// nodeWeights returns the node weight of every slot (a fresh slice of ones
+// when none was set).
+func (g *Graph) nodeWeights() []float64 {
+	if g.nw != nil {
+		return g.nw
+	}
+	w := make([]float64, len(g.deg))
+	for i := range w {
+		w[i] = 1
+	}
+	return w
 }
 
 // ensure makes node i present, growing the graph if needed.
