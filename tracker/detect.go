@@ -7,7 +7,11 @@ type Partition struct {
 	Membership []uint64
 	// Communities holds the statistics of each community, sorted by ID.
 	Communities []CommunityStats
-	// Modularity is Q at the options' resolution.
+	// Quality is the value of the options' objective: Q at the options'
+	// resolution for modularity, H for CPM (doc.go, Objective).
+	Quality float64
+	// Modularity is Q at the options' resolution for the modularity
+	// objective; for CPM, Q at resolution 1, for comparison.
 	Modularity float64
 	// Levels and Moves describe the run: levels of aggregation, node moves.
 	Levels, Moves int
@@ -117,6 +121,7 @@ func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma f
 	}
 	sortStats(p.Communities)
 	p.Modularity = qFrom(in, tot, g.m2, gamma)
+	p.Quality = p.Modularity
 	return p
 }
 

@@ -2,6 +2,7 @@ package main
 
 import (
 	"flag"
+	"fmt"
 	"time"
 
 	"shoal/events"
@@ -15,6 +16,7 @@ import (
 // trackerFlags are the optimiser's flags (detect, diff, replay, run); the
 // drift guard only where a tracker runs incrementally.
 type trackerFlags struct {
+	objective              *string
 	resolution, driftBound *float64
 	seed                   *uint64
 	fullEvery              *int
@@ -22,7 +24,8 @@ type trackerFlags struct {
 
 func addTrackerFlags(fs *flag.FlagSet, incremental bool) *trackerFlags {
 	f := &trackerFlags{
-		resolution: fs.Float64("resolution", 1, "modularity resolution gamma (> 0); above 1 favours smaller communities"),
+		objective:  fs.String("objective", "modularity", "quality to maximise: modularity, or cpm (the Constant Potts Model: small dense groups in big graphs, no resolution limit)"),
+		resolution: fs.Float64("resolution", 0, fmt.Sprintf("resolution gamma (> 0): for modularity, above 1 favours smaller communities (0: 1); for cpm, the link density per node pair a group must exceed (0: %g, for unit weights)", tracker.DefaultCPMResolution)),
 		seed:       fs.Uint64("seed", 0, "seed of the random node orders"),
 	}
 	if incremental {
@@ -33,7 +36,15 @@ func addTrackerFlags(fs *flag.FlagSet, incremental bool) *trackerFlags {
 }
 
 func (f *trackerFlags) options() (tracker.Options, error) {
-	o := tracker.Options{Resolution: *f.resolution, Seed: *f.seed}
+	obj, err := tracker.ParseObjective(*f.objective)
+	if err != nil {
+		return tracker.Options{}, usageError{fmt.Errorf("--objective: %w", err)}
+	}
+	if *f.resolution < 0 {
+		return tracker.Options{}, usagef("--resolution %v: must be > 0 (0: the objective's default)", *f.resolution)
+	}
+	o := tracker.Options{Objective: obj, Resolution: *f.resolution, Seed: *f.seed}
+	o.EnsureDefaults()
 	if f.fullEvery != nil {
 		o.FullEvery, o.DriftBound = *f.fullEvery, *f.driftBound
 	}
