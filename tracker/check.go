@@ -24,6 +24,7 @@ func (t *Tracker) Check() error {
 	ns := len(t.head)
 	tot := make([]float64, ns)
 	in := make([]float64, ns)
+	mtot := make([]float64, ns)
 	size := make([]uint32, ns)
 	for i, s := range t.comm {
 		present := g.Has(uint32(i))
@@ -35,6 +36,7 @@ func (t *Tracker) Check() error {
 		}
 		size[s]++
 		tot[s] += k[i]
+		mtot[s] += g.NodeWeight(uint32(i))
 		in[s] += 2 * g.self[i]
 		g.Neighbours(uint32(i), func(j uint32, w float64) {
 			if t.comm[j] == s {
@@ -52,6 +54,9 @@ func (t *Tracker) Check() error {
 		}
 		if !near(tot[s], t.tot[s]) || !near(in[s], t.in[s]) {
 			return fmt.Errorf("tracker: slot %d (id %d) tot %v in %v, recomputed %v and %v", s, t.id[s], t.tot[s], t.in[s], tot[s], in[s])
+		}
+		if !near(mtot[s], t.mtot[s]) {
+			return fmt.Errorf("tracker: slot %d (id %d) node weight %v, recomputed %v", s, t.id[s], t.mtot[s], mtot[s])
 		}
 		if ids[t.id[s]] || t.id[s] >= t.nextID {
 			return fmt.Errorf("tracker: id %d of slot %d reused or not below %d", t.id[s], s, t.nextID)

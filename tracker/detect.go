@@ -70,8 +70,8 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 			init[i] = d
 		}
 	}
-	s := newSolver(opts.Resolution, opts.Seed)
-	l := g.view()
+	s := newSolver(&opts, opts.Seed)
+	l := g.view(opts.Objective)
 	comm, c := s.run(l, init, opts.MaxLevels)
 	if s.split {
 		c = splitDisconnected(&l, comm, c)
@@ -86,18 +86,29 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 			}
 		}
 	}
-	p := finish(g, comm, c, prevIDs, &next, opts.Resolution, s.in, s.tot)
+	p := finish(g, comm, c, prevIDs, &next, &opts, s.in, s.tot, s.mass)
 	p.Levels, p.Moves = s.levels, s.moves
 	return p
 }
 
 // finish turns a dense partition into a Partition: stable ids, statistics
 // and exact modularity.
-// in and tot, when not nil, are the totals the optimiser already has.
-func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma float64, in, tot []float64) *Partition {
+// in, tot and mass, when not nil, are the totals the optimiser already
+// has (mass: the summed node weights for CPM, degrees for modularity).
+func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, o *Options, in, tot, mass []float64) *Partition {
 	ids := assignIDs(comm, c, nil, prev, g.k, next)
-	if in == nil {
+	if in == nil || (o.Objective == ObjectiveCPM && mass == nil) {
 		in, tot = communityTotals(g, comm, c)
+		mass = nil
+	}
+	weight := mass
+	if o.Objective != ObjectiveCPM || weight == nil {
+		weight = make([]float64, c)
+		for i, ci := range comm {
+			if g.alive[i] {
+				weight[ci] += g.NodeWeight(uint32(i))
+			}
+		}
 	}
 	size := make([]int, c)
 	for i := range comm {
@@ -117,11 +128,16 @@ func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, gamma f
 		if size[ci] == 0 {
 			continue
 		}
-		p.Communities = append(p.Communities, CommunityStats{ID: ids[ci], Size: size[ci], Internal: in[ci] / 2, Degree: tot[ci]})
+		p.Communities = append(p.Communities, CommunityStats{ID: ids[ci], Size: size[ci], Internal: in[ci] / 2, Degree: tot[ci], Weight: weight[ci]})
 	}
 	sortStats(p.Communities)
-	p.Modularity = qFrom(in, tot, g.m2, gamma)
-	p.Quality = p.Modularity
+	if o.Objective == ObjectiveCPM {
+		p.Modularity = qFrom(in, tot, g.m2, 1)
+		p.Quality = cpmFrom(in, weight, o.Resolution)
+	} else {
+		p.Modularity = qFrom(in, tot, g.m2, o.Resolution)
+		p.Quality = p.Modularity
+	}
 	return p
 }
 

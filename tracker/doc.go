@@ -1,12 +1,12 @@
-// Package tracker keeps a high-modularity partition of a weighted undirected
-// graph that changes all the time. It is pure: no I/O, no clock, no
+// Package tracker keeps a partition of a weighted undirected graph that
+// changes all the time, at high modularity or high CPM quality. It is pure: no I/O, no clock, no
 // goroutines; the same input, options and seed give the same partition and
 // the same community ids, bit for bit, on any machine.
 //
 // # Objective
 //
-// Modularity with resolution gamma (Newman 2006; Reichardt and Bornholdt
-// 2006):
+// Two objectives share one optimiser ([Options.Objective]). Modularity with
+// resolution gamma (Newman 2006; Reichardt and Bornholdt 2006):
 //
 //	Q = sum over communities c of [ in_c / 2m - gamma (tot_c / 2m)^2 ]
 //
@@ -16,6 +16,31 @@
 // community.Q agrees when given the loop as 2w). [Modularity] computes Q of
 // any labelling; the optimiser and the [Tracker] keep in_c and tot_c up to
 // date and report the same value.
+//
+// Modularity has a resolution limit (Fortunato and Barthelemy 2007): two
+// groups joined by even one edge merge once they are small against the
+// whole graph (about sqrt(2m) edges), however dense they are, and no fixed
+// gamma fixes this for groups of every size. The Constant Potts Model
+// (Traag, Van Dooren and Nesterov 2011) compares each community with a
+// density instead of with the rest of the graph:
+//
+//	H = sum over communities c of [ e_c - gamma n_c (n_c - 1) / 2 ]
+//
+// e_c = in_c / 2 is the weight inside c, each edge once, and n_c the summed
+// node weight of c ([Graph.SetNodeWeight]; 1 per node by default, so n_c is
+// the size). A community is worth keeping when it holds more than gamma
+// times its number of node pairs; two groups stay apart when the density of
+// the links between them is below gamma, whatever the size of the graph.
+// [CPM] computes H of any labelling.
+//
+// Both are optimised by one code path. With a_i the node's mass in the
+// penalty (k_i for modularity, its node weight for CPM), A_c the sum over
+// c, and lambda = gamma / 2m for modularity and gamma for CPM, both
+// objectives are, up to a positive factor and a constant, the sum over c of
+// in_c - lambda A_c^2, so every gain below reads the same with (a, A,
+// lambda) in place of (k, tot, gamma / 2m). [Partition.Quality] and
+// [Tracker.Quality] report the objective's value; for CPM, Modularity
+// reports Q at resolution 1 beside it, for comparison.
 //
 // # Static
 //
@@ -37,7 +62,8 @@
 // Local moving takes i out of its community D and puts it into the
 // neighbouring community of largest gain (ties: the lower community index),
 // and only when that beats going back to D by more than 1e-10 k_i, the
-// gains being compared multiplied by m. The refinement lets a singleton v
+// gains being compared multiplied by m. For CPM the gain is k_i,C -
+// gamma n_i n_C (Objective). The refinement lets a singleton v
 // of community S join a sub-community T of S only when both are well
 // connected to S,
 //

@@ -503,9 +503,15 @@ func (g *Graph) recompute() (k []float64, m2 float64) {
 	return k, m2
 }
 
-// view returns the level-0 adjacency for the optimiser.
-func (g *Graph) view() level {
-	return level{start: g.start, deg: g.deg, nbr: g.nbr, wt: g.wt, self: g.self, k: g.k, m2: g.m2}
+// view returns the level-0 adjacency for the optimiser of objective obj:
+// the node masses are the degrees for modularity, the node weights for CPM.
+func (g *Graph) view(obj Objective) level {
+	l := level{start: g.start, deg: g.deg, nbr: g.nbr, wt: g.wt, self: g.self, k: g.k, m2: g.m2}
+	l.a = l.k
+	if obj == ObjectiveCPM {
+		l.a = g.nodeWeights()
+	}
+	return l
 }
 
 // level is the adjacency the optimiser works on: the base graph, or an
@@ -516,6 +522,7 @@ type level struct {
 	wt         []float64
 	self       []float64 // A_ii = 2*self[i]
 	k          []float64
+	a          []float64 // node mass of the penalty: k for modularity, node weight for CPM
 	m2         float64
 }
 

@@ -56,11 +56,16 @@ func (t *Tracker) groupPass() {
 		return min(a.U, a.V) == min(b.U, b.V) && max(a.U, a.V) == max(b.U, b.V)
 	})
 	sub := NewGraph(len(nodes), edges)
-	s := newSolver(t.o.Resolution, t.o.Seed^uint64(t.batches))
-	l := sub.view()
+	s := newSolver(&t.o, t.o.Seed^uint64(t.batches))
+	l := sub.view(t.o.Objective)
 	l.k = make([]float64, len(nodes))
+	l.a = l.k
+	if t.o.Objective == ObjectiveCPM {
+		l.a = make([]float64, len(nodes))
+	}
 	for li, u := range nodes {
 		l.k[li] = g.k[u]
+		l.a[li] = t.mass(u)
 	}
 	l.m2 = g.m2
 	comm, c := s.run(l, nil, 8)
@@ -87,15 +92,17 @@ func (t *Tracker) groupPass() {
 	}
 }
 
-// tryGroup moves the nodes of grp into a new community if that raises Q:
+// tryGroup moves the nodes of grp into a new community if that raises the
+// objective:
 //
-//	dQ * 2m = in_S - gamma tot_S^2 / 2m
-//	        + sum over communities C that lose members S_C:
-//	            -b_C - gamma ((tot_C - a_C)^2 - tot_C^2) / 2m
+//	gain = in_S - lambda A_S^2
+//	     + sum over communities C that lose members S_C:
+//	         -b_C - lambda ((A_C - a_C)^2 - A_C^2)
 //
-// with a_C = tot(S_C) and b_C the part of in_C that leaves with S_C (its
-// internal weight and twice its edges to C - S_C), from Q in doc.go
-// (Objective).
+// with A the penalty total of doc.go, Objective (tot for modularity, with
+// lambda = gamma / 2m, so that gain = dQ * 2m; n for CPM, with lambda =
+// gamma, so that gain = 2 dH), a_C = A(S_C) and b_C the part of in_C that
+// leaves with S_C (its internal weight and twice its edges to C - S_C).
 func (t *Tracker) tryGroup(grp []uint32) {
 	g := t.g
 	gen := t.nextStamp(1)
@@ -103,8 +110,8 @@ func (t *Tracker) tryGroup(grp []uint32) {
 		t.stamp[u] = gen
 	}
 	type loss struct {
-		c    uint32
-		a, b float64
+		c       uint32
+		a, k, b float64 // penalty mass, degree and internal weight leaving C
 	}
 	var losses []loss
 	at := func(c uint32) *loss {
@@ -116,13 +123,16 @@ func (t *Tracker) tryGroup(grp []uint32) {
 		losses = append(losses, loss{c: c})
 		return &losses[len(losses)-1]
 	}
-	var inS, totS float64
+	var inS, totS, penS float64
 	for _, u := range grp {
 		cu := t.comm[u]
 		lc := at(cu)
-		lc.a += g.k[u]
+		mu := t.mass(u)
+		lc.a += mu
+		lc.k += g.k[u]
 		lc.b += 2 * g.self[u]
 		totS += g.k[u]
+		penS += mu
 		inS += 2 * g.self[u]
 		st, d := g.start[u], g.deg[u]
 		for p := st; p < st+d; p++ {
@@ -143,11 +153,11 @@ func (t *Tracker) tryGroup(grp []uint32) {
 	if len(losses) < 2 {
 		return // already together
 	}
-	m2, gamma := g.m2, t.o.Resolution
-	gain := inS - gamma*totS*totS/m2
+	scale, pen := t.s.scale(g.m2), t.pen()
+	gain := inS - scale*penS*penS
 	for _, lc := range losses {
-		tc := t.tot[lc.c]
-		gain += -lc.b - gamma*((tc-lc.a)*(tc-lc.a)-tc*tc)/m2
+		tc := pen[lc.c]
+		gain += -lc.b - scale*((tc-lc.a)*(tc-lc.a)-tc*tc)
 	}
 	if gain <= moveTol*totS {
 		return
@@ -158,12 +168,12 @@ func (t *Tracker) tryGroup(grp []uint32) {
 	// that community, grown); what is left of it takes the fresh id.
 	best := 0
 	for i := range losses {
-		if a, b := losses[i], losses[best]; a.a > b.a || (a.a == b.a && t.id[a.c] < t.id[b.c]) {
+		if a, b := losses[i], losses[best]; a.k > b.k || (a.k == b.k && t.id[a.c] < t.id[b.c]) {
 			best = i
 		}
 	}
 	bc := losses[best].c
-	bID, inherit := t.id[bc], 2*losses[best].a >= t.tot[bc]
+	bID, inherit := t.id[bc], 2*losses[best].k >= t.tot[bc]
 	ns := t.newSlot()
 	t.heat(ns)
 	for _, u := range grp {
@@ -199,5 +209,8 @@ func (t *Tracker) moveNode(u, to uint32) {
 	}
 	t.tot[from] -= g.k[u]
 	t.tot[to] += g.k[u]
-	t.moved(u, from, to, wFrom, wTo)
+	w := g.NodeWeight(u)
+	t.mtot[from] -= w
+	t.mtot[to] += w
+	t.relink(u, from, to, wFrom, wTo)
 }

@@ -19,11 +19,11 @@ func (t *Tracker) reoptimise() {
 	// Free slots, ready before local moving so that the slot arrays do not
 	// grow under it: a node better off alone takes one, with a fresh id.
 	t.reserveSlots(min(len(order), 256))
-	l := g.view()
+	l := g.view(t.o.Objective)
 	t.s.onMove = t.moved
 	t.s.empty = t.takeSlot
 	t.s.visits = 0
-	t.res.Moves += t.s.moveFast(&l, t.comm, t.tot, order)
+	t.res.Moves += t.s.moveFast(&l, t.comm, t.pen(), order)
 	t.s.onMove, t.s.empty = nil, nil
 	t.res.Visited = t.s.visits
 	for _, u := range t.frontier {
@@ -42,9 +42,24 @@ func (t *Tracker) reoptimise() {
 }
 
 // moved keeps the slot bookkeeping of a node move made by moveFast, whose
-// tot update has already happened, and records the connectivity check the
-// move calls for: from lost a member, so its neighbours in from are seeds.
+// update of the penalty totals (pen) has already happened.
 func (t *Tracker) moved(i, from, to uint32, wFrom, wTo float64) {
+	if t.o.Objective == ObjectiveCPM {
+		k := t.g.k[i]
+		t.tot[from] -= k
+		t.tot[to] += k
+	} else {
+		w := t.g.NodeWeight(i)
+		t.mtot[from] -= w
+		t.mtot[to] += w
+	}
+	t.relink(i, from, to, wFrom, wTo)
+}
+
+// relink moves node i from slot from to slot to once tot and mtot are
+// updated, and records the connectivity check the move calls for: from
+// lost a member, so its neighbours in from are seeds.
+func (t *Tracker) relink(i, from, to uint32, wFrom, wTo float64) {
 	self := 2 * t.g.self[i]
 	t.in[from] -= 2*wFrom + self
 	t.in[to] += 2*wTo + self
@@ -77,7 +92,8 @@ const mergeCap = 64
 // mergePass is the community-level step of Louvain restricted to what the
 // batch touched: for every pair of communities that an added or heavier
 // edge joins (after local moving), the smaller one, taken whole as one
-// node, joins the other when w(A,B) - gamma tot_A tot_B / 2m is positive.
+// node, joins the other when w(A,B) - lambda A_A A_B is positive (doc.go,
+// Objective: for modularity gamma tot_A tot_B / 2m, for CPM gamma n_A n_B).
 // Its cost is the volume of the smaller sides, not of the graph. The
 // merged community keeps the id of the side with the larger tot (ties: the
 // older id). Both sides are connected and joined by an edge, so the union
@@ -89,7 +105,8 @@ func (t *Tracker) mergePass() {
 	if g.m2 <= 0 || len(pairs) == 0 {
 		return
 	}
-	scale := t.o.Resolution / g.m2
+	scale := t.s.scale(g.m2)
+	pen := t.pen()
 	for _, p := range pairs {
 		a, b := t.comm[p[0]], t.comm[p[1]]
 		if a == noSlot || b == noSlot || a == b {
@@ -111,7 +128,7 @@ func (t *Tracker) mergePass() {
 			}
 		}
 		totA := t.tot[a]
-		if w-scale*totA*t.tot[b] <= moveTol*totA {
+		if w-scale*pen[a]*pen[b] <= moveTol*totA {
 			continue
 		}
 		keep := t.id[b]
@@ -125,6 +142,7 @@ func (t *Tracker) mergePass() {
 		}
 		t.head[a], t.size[a] = noSlot, 0
 		t.tot[b] += totA
+		t.mtot[b] += t.mtot[a]
 		t.in[b] += t.in[a] + 2*w
 		t.id[b] = keep
 		t.release(a)

@@ -9,6 +9,7 @@ import (
 // community plus the list of communities it touched, reset after each node.
 type solver struct {
 	gamma float64
+	cpm   bool // the CPM objective; modularity otherwise
 	rng   *rand.Rand
 
 	wsum    []float64 // accumulator indexed by community, all zero between nodes
@@ -20,9 +21,10 @@ type solver struct {
 	levels  int       // levels of the last run
 	split   bool      // the last run may have left a community disconnected
 
-	// in and tot are in_c and tot_c of the communities of the last run,
-	// when it ended with every community a single node (nil otherwise).
-	in, tot []float64
+	// in, tot and mass are in_c, tot_c and the summed node mass of the
+	// communities of the last run, when it ended with every community a
+	// single node (nil otherwise).
+	in, tot, mass []float64
 
 	// empty, if set, returns an empty community for moveFast (noSlot if
 	// none); the tracker sets it to hand out free slots.
@@ -39,8 +41,19 @@ type solver struct {
 	onMove func(i, from, to uint32, wFrom, wTo float64)
 }
 
-func newSolver(gamma float64, seed uint64) *solver {
-	return &solver{gamma: gamma, rng: rand.New(rand.NewPCG(seed, seed^0x9e3779b97f4a7c15))}
+func newSolver(o *Options, seed uint64) *solver {
+	return &solver{gamma: o.Resolution, cpm: o.Objective == ObjectiveCPM, rng: rand.New(rand.NewPCG(seed, seed^0x9e3779b97f4a7c15))}
+}
+
+// scale is the factor lambda of the penalty of both objectives (doc.go,
+// Objective): the gain of putting a lone node i into C is
+// k_i,C - lambda a_i A_C, with a the node masses of the level and A their
+// sum over C; lambda is gamma / 2m for modularity and gamma for CPM.
+func (s *solver) scale(m2 float64) float64 {
+	if s.cpm {
+		return s.gamma
+	}
+	return s.gamma / m2
 }
 
 // grow sizes the scratch for n nodes and community slots.
@@ -90,8 +103,8 @@ func (s *solver) perm(dst []uint32) {
 }
 
 // moveTol is the smallest gain, relative to the node's degree, worth a move.
-// Gains are computed in units of k_i,C - gamma k_i tot_C / 2m (dQ of
-// doc.go, Static, times m: the common factor 1/m is dropped), so the
+// Gains are computed in units of k_i,C - lambda a_i A_C (for modularity dQ
+// of doc.go, Static, times m: the common factor 1/m is dropped), so the
 // rounding error of a gain is a few ulps of k_i.
 const moveTol = 1e-10
 
@@ -99,8 +112,9 @@ const moveTol = 1e-10
 // move" of Leiden): nodes are taken from the queue, each moves to the
 // neighbouring community of largest gain (ties: the lower community index),
 // and when a node moves its neighbours outside the target community are
-// queued again. comm and tot are updated in place. The queue starts with
-// the nodes in start, in that order. It returns the number of moves.
+// queued again. comm and tot (the summed node mass A_C of each community)
+// are updated in place. The queue starts with the nodes in start, in that
+// order. It returns the number of moves.
 //
 // comm values must be below len(s.wsum); tot is indexed by community.
 func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32) int {
@@ -108,7 +122,7 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 	if l.m2 <= 0 || n == 0 {
 		return 0
 	}
-	scale := s.gamma / l.m2
+	scale := s.scale(l.m2)
 	ring, inq, wsum := s.ring[:n], s.inq[:n], s.wsum
 	touched := s.touched[:0]
 	head, size := 0, 0
@@ -120,7 +134,7 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		}
 	}
 	moves := 0
-	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
+	k, a, startOf, degOf, nbr, wt := l.k, l.a, l.start, l.deg, l.nbr, l.wt
 	// Empty communities, the target of a node better off alone (Leiden's
 	// local moving considers the empty community too). The tracker hands
 	// out its free slots through s.empty; here, a stack of the unused ids.
@@ -146,7 +160,7 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 		size--
 		inq[i] = false
 		s.visits++
-		ki := k[i]
+		ki, ai := k[i], a[i]
 		if ki == 0 {
 			continue
 		}
@@ -160,13 +174,13 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 			}
 			wsum[c] += ws[p]
 		}
-		tot[ci] -= ki
+		tot[ci] -= ai
 		best := ci
 		wFrom := wsum[ci]
-		stay := wFrom - scale*ki*tot[ci]
+		stay := wFrom - scale*ai*tot[ci]
 		bestGain, bestW := stay, wFrom
 		for _, c := range touched {
-			g := wsum[c] - scale*ki*tot[c]
+			g := wsum[c] - scale*ai*tot[c]
 			if g > bestGain || (g == bestGain && c < best) {
 				best, bestGain, bestW = c, g, wsum[c]
 			}
@@ -188,10 +202,10 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 			}
 		}
 		if best == ci || bestGain-stay <= moveTol*ki {
-			tot[ci] += ki
+			tot[ci] += ai
 			continue
 		}
-		tot[best] += ki
+		tot[best] += ai
 		comm[i] = best
 		moves++
 		if members != nil {
@@ -223,9 +237,11 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 // Algorithm A.2, MergeNodesSubset, with the greedy choice instead of the
 // randomised one): inside each community S of comm, start from singletons;
 // visit nodes in order; a node v that is still a singleton
-// and is well connected to S, w(v, S-v) >= gamma k_v (tot_S - k_v) / 2m,
-// joins the well-connected sub-community T of S,
-// w(T, S-T) >= gamma tot_T (tot_S - tot_T) / 2m, of largest positive gain.
+// and is well connected to S, w(v, S-v) >= lambda a_v (A_S - a_v), joins
+// the well-connected sub-community T of S, w(T, S-T) >= lambda A_T (A_S -
+// A_T), of largest positive gain (a the node mass, A its sum, lambda of
+// solver.scale: for modularity a = k and lambda = gamma / 2m, the
+// conditions of doc.go, Static). tot holds A of each community.
 // Every sub-community is connected, since v only joins a T it has an edge
 // to. Nodes are visited in node order, not in a random one: reading the
 // adjacency in slab order made the whole static run about a third faster
@@ -234,7 +250,7 @@ func (s *solver) moveFast(l *level, comm []uint32, tot []float64, start []uint32
 // it returns their number.
 func (s *solver) refine(l *level, comm []uint32, tot []float64, ref []uint32) int {
 	n := l.n()
-	scale := s.gamma / l.m2
+	scale := s.scale(l.m2)
 	// The state read per adjacency entry is packed so that one random
 	// access brings it in: (community, sub-community) per node, and
 	// (w(T, S-T), tot_T, size) per sub-community (indexed by its first
@@ -246,7 +262,7 @@ func (s *solver) refine(l *level, comm []uint32, tot []float64, ref []uint32) in
 	}
 	nd := make([]node, n)
 	sb := make([]sub, n)
-	k, startOf, degOf, nbr, wt := l.k, l.start, l.deg, l.nbr, l.wt
+	k, startOf, degOf, nbr, wt := l.a, l.start, l.deg, l.nbr, l.wt
 	for i := 0; i < n; i++ {
 		nd[i] = node{comm[i], uint32(i)}
 	}
@@ -351,10 +367,18 @@ func (s *solver) aggregate(l *level, ref []uint32, nr int) level {
 		k:     make([]float64, nr),
 		m2:    l.m2,
 	}
+	if s.cpm {
+		a.a = make([]float64, nr)
+	} else {
+		a.a = a.k
+	}
 	for i := 0; i < n; i++ {
 		r := ref[i]
 		a.self[r] += l.self[i]
 		a.k[r] += l.k[i]
+		if s.cpm {
+			a.a[r] += l.a[i]
+		}
 		cnt[r+1] += l.deg[i]
 	}
 	for r := 1; r <= nr; r++ {
@@ -438,7 +462,7 @@ func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
 		n := l.n()
 		tot := make([]float64, n)
 		for i := 0; i < n; i++ {
-			tot[comm[i]] += l.k[i]
+			tot[comm[i]] += l.a[i]
 		}
 		order := make([]uint32, n)
 		s.visitOrder(order)
@@ -458,7 +482,7 @@ func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
 			tot[i] = 0
 		}
 		for i := 0; i < n; i++ {
-			tot[comm[i]] += l.k[i]
+			tot[comm[i]] += l.a[i]
 		}
 		ref := make([]uint32, n)
 		nr := s.refine(&l, comm, tot, ref)
@@ -483,16 +507,18 @@ func (s *solver) run(base level, init []uint32, maxLevels int) ([]uint32, int) {
 	for i := range out {
 		out[i] = comm[nodeOf[i]]
 	}
-	s.in, s.tot = nil, nil
+	s.in, s.tot, s.mass = nil, nil, nil
 	if !s.split {
 		// Every community is one node of the last level: its totals are
-		// that node's self-loop and degree.
+		// that node's self-loop, degree and mass.
 		s.in = make([]float64, nc)
 		s.tot = make([]float64, nc)
+		s.mass = make([]float64, nc)
 		for v := 0; v < l.n(); v++ {
 			c := comm[v]
 			s.in[c] += 2 * l.self[v]
 			s.tot[c] += l.k[v]
+			s.mass[c] += l.a[v]
 		}
 	}
 	return out, nc

@@ -101,3 +101,13 @@ func CPM[L uint32 | uint64](g *Graph, comm []L, gamma float64) float64 {
 	}
 	return h
 }
+
+// cpmFrom sums H from per-community in_c (internal weight from both ends)
+// and n_c (summed node weight).
+func cpmFrom(in, n []float64, gamma float64) float64 {
+	var h float64
+	for c := range in {
+		h += in[c]/2 - gamma*n[c]*(n[c]-1)/2
+	}
+	return h
+}

@@ -55,6 +55,9 @@ func Rewire(g *Graph, seed uint64, swaps int) *Graph {
 		}
 	}
 	out := NewGraph(g.Len(), append(es, loops...))
+	if g.nw != nil {
+		out.nw = append([]float64(nil), g.nw...)
+	}
 	for i := range g.alive {
 		if !g.alive[i] && out.alive[i] {
 			out.alive[i] = false
@@ -64,7 +67,7 @@ func Rewire(g *Graph, seed uint64, swaps int) *Graph {
 	return out
 }
 
-// Significance is the observed modularity of a partition against what the
+// Significance is the observed quality of a partition against what the
 // same optimiser reaches on rewired graphs with the same degrees.
 type Significance struct {
 	Observed float64
@@ -75,14 +78,15 @@ type Significance struct {
 }
 
 // Null runs the optimiser with o on k rewirings of g (10 |E| swaps each,
-// seeds o.Seed+1 .. o.Seed+k) and compares observed with their Q.
+// seeds o.Seed+1 .. o.Seed+k) and compares observed with the quality of
+// o's objective they reach (Q, or H for CPM; node weights are kept).
 func Null(g *Graph, o *Options, observed float64, k int) Significance {
 	s := Significance{Observed: observed}
 	for r := 0; r < k; r++ {
 		rg := Rewire(g, o.Seed+uint64(r)+1, 10*g.Edges())
 		p := Detect(rg, o)
-		s.Null = append(s.Null, p.Modularity)
-		s.NullMean += p.Modularity
+		s.Null = append(s.Null, p.Quality)
+		s.NullMean += p.Quality
 	}
 	if k == 0 {
 		return s

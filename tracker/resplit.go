@@ -79,11 +79,16 @@ func (t *Tracker) resplit(c uint32) {
 		}
 	}
 	sub := NewGraph(len(nodes), edges)
-	s := newSolver(t.o.Resolution, t.o.Seed^uint64(t.batches)^uint64(c))
-	l := sub.view()
+	s := newSolver(&t.o, t.o.Seed^uint64(t.batches)^uint64(c))
+	l := sub.view(t.o.Objective)
 	l.k = make([]float64, len(nodes))
+	l.a = l.k
+	if t.o.Objective == ObjectiveCPM {
+		l.a = make([]float64, len(nodes))
+	}
 	for li, u := range nodes {
 		l.k[li] = g.k[u]
+		l.a[li] = t.mass(u)
 	}
 	l.m2 = g.m2
 	comm, k := s.run(l, nil, 16)
@@ -93,12 +98,15 @@ func (t *Tracker) resplit(c uint32) {
 	if s.split {
 		k = splitDisconnected(&l, comm, k)
 	}
-	// Exact gain of the split on the whole graph's modularity.
+	// Exact gain of the split on the whole graph's objective (in units of
+	// in_c - lambda A_c^2, as tryGroup).
 	in := make([]float64, k)
 	tot := make([]float64, k)
+	pen := make([]float64, k)
 	for li, u := range nodes {
 		gi := comm[li]
 		tot[gi] += g.k[u]
+		pen[gi] += l.a[li]
 		in[gi] += 2 * g.self[u]
 		st, d := sub.start[li], sub.deg[li]
 		for p := st; p < st+d; p++ {
@@ -107,10 +115,10 @@ func (t *Tracker) resplit(c uint32) {
 			}
 		}
 	}
-	m2, gamma := g.m2, t.o.Resolution
-	gain := -(t.in[c] - gamma*t.tot[c]*t.tot[c]/m2)
+	scale, pc := s.scale(g.m2), t.pen()[c]
+	gain := -(t.in[c] - scale*pc*pc)
 	for gi := range in {
-		gain += in[gi] - gamma*tot[gi]*tot[gi]/m2
+		gain += in[gi] - scale*pen[gi]*pen[gi]
 	}
 	if gain <= moveTol*t.tot[c] {
 		return

@@ -65,6 +65,7 @@ type search struct {
 	round  int // at a root: the last round the set expanded a node
 	done   bool
 	tot    float64
+	mtot   float64
 	in     float64
 }
 
@@ -106,6 +107,7 @@ func (t *Tracker) checkSlot(c uint32, seeds []uint32) {
 				x := s.nodes[s.read]
 				s.read++
 				ss[r].tot += g.k[x]
+				ss[r].mtot += g.NodeWeight(x)
 				ss[r].in += 2 * g.self[x]
 				st, d := g.start[x], g.deg[x]
 				for p := st; p < st+d; p++ {
@@ -118,6 +120,7 @@ func (t *Tracker) checkSlot(c uint32, seeds []uint32) {
 						if b := find(ss, int(sy-base)); b != r {
 							ss[b].parent = r
 							ss[r].tot += ss[b].tot
+							ss[r].mtot += ss[b].mtot
 							ss[r].in += ss[b].in
 							ss[r].active += ss[b].active
 							open--
@@ -171,8 +174,9 @@ func (t *Tracker) checkSlot(c uint32, seeds []uint32) {
 				t.link(x, ns)
 			}
 		}
-		t.tot[ns], t.in[ns] = ss[r].tot, ss[r].in
+		t.tot[ns], t.in[ns], t.mtot[ns] = ss[r].tot, ss[r].in, ss[r].mtot
 		t.tot[c] -= ss[r].tot
+		t.mtot[c] -= ss[r].mtot
 		t.in[c] -= ss[r].in
 		if t.tot[ns] > t.tot[c] {
 			t.id[c], t.id[ns] = t.id[ns], t.id[c]

@@ -71,6 +71,7 @@ type Tracker struct {
 
 	head    []uint32 // first member of each slot
 	tot, in []float64
+	mtot    []float64 // summed node weight of each slot (n_c of CPM)
 	size    []uint32
 	id      []uint64
 	free    []uint32 // empty slots for reuse
@@ -113,7 +114,8 @@ func NewFrom(g *Graph, o *Options) (*Tracker, error) {
 	if err := opts.Validate(); err != nil {
 		return nil, err
 	}
-	t := &Tracker{o: opts, g: g, s: newSolver(opts.Resolution, opts.Seed), nextID: 1}
+	t := &Tracker{o: opts, g: g, s: newSolver(&opts, opts.Seed), nextID: 1}
+	t.prepare()
 	t.load(detectFrom(g, &t.o, nil, t.nextID))
 	g.reserve()
 	return t, nil
@@ -132,7 +134,8 @@ func NewWithPartition(g *Graph, o *Options, membership []uint64, next uint64) (*
 	if len(membership) != g.Len() {
 		return nil, fmt.Errorf("tracker: membership of %d nodes for a graph of %d", len(membership), g.Len())
 	}
-	t := &Tracker{o: opts, g: g, s: newSolver(opts.Resolution, opts.Seed), nextID: max(next, 1)}
+	t := &Tracker{o: opts, g: g, s: newSolver(&opts, opts.Seed), nextID: max(next, 1)}
+	t.prepare()
 	dense := map[uint64]uint32{}
 	comm := make([]uint32, g.Len())
 	var ids []uint64
@@ -157,6 +160,31 @@ func NewWithPartition(g *Graph, o *Options, membership []uint64, next uint64) (*
 	t.splitAll()
 	g.reserve()
 	return t, nil
+}
+
+// prepare materialises the node weights of a CPM tracker, so that every
+// batch reads them from the graph without building a slice of ones.
+func (t *Tracker) prepare() {
+	if t.o.Objective == ObjectiveCPM && t.g.nw == nil {
+		t.g.nw = t.g.nodeWeights()
+	}
+}
+
+// pen returns the per-slot totals of the objective's penalty (doc.go,
+// Objective): tot_c for modularity, n_c for CPM.
+func (t *Tracker) pen() []float64 {
+	if t.o.Objective == ObjectiveCPM {
+		return t.mtot
+	}
+	return t.tot
+}
+
+// mass returns node u's mass in the penalty: k_u or its node weight.
+func (t *Tracker) mass(u uint32) float64 {
+	if t.o.Objective == ObjectiveCPM {
+		return t.g.nw[u]
+	}
+	return t.g.k[u]
 }
 
 // load replaces the partition with p.
@@ -191,6 +219,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 	t.head = make([]uint32, c)
 	t.tot = make([]float64, c)
 	t.in = make([]float64, c)
+	t.mtot = make([]float64, c)
 	t.size = make([]uint32, c)
 	t.id = ids
 	t.free = t.free[:0]
@@ -216,7 +245,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 // recount recomputes tot and in of every slot from scratch.
 func (t *Tracker) recount() {
 	for s := range t.tot {
-		t.tot[s], t.in[s] = 0, 0
+		t.tot[s], t.in[s], t.mtot[s] = 0, 0, 0
 	}
 	g := t.g
 	for i, s := range t.comm {
@@ -224,6 +253,7 @@ func (t *Tracker) recount() {
 			continue
 		}
 		t.tot[s] += g.k[i]
+		t.mtot[s] += g.NodeWeight(uint32(i))
 		t.in[s] += 2 * g.self[i]
 		st, d := g.start[i], g.deg[i]
 		for p := st; p < st+d; p++ {
@@ -271,13 +301,14 @@ func (t *Tracker) newSlot() uint32 {
 		t.head = append(t.head, noSlot)
 		t.tot = append(t.tot, 0)
 		t.in = append(t.in, 0)
+		t.mtot = append(t.mtot, 0)
 		t.size = append(t.size, 0)
 		t.id = append(t.id, 0)
 		t.hotMark = append(t.hotMark, false)
 		t.lost = append(t.lost, 0)
 		t.checked = append(t.checked, 0)
 	}
-	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	return s
@@ -291,6 +322,7 @@ func (t *Tracker) reserveSlots(k int) {
 		t.head = append(t.head, noSlot)
 		t.tot = append(t.tot, 0)
 		t.in = append(t.in, 0)
+		t.mtot = append(t.mtot, 0)
 		t.size = append(t.size, 0)
 		t.id = append(t.id, NoCommunity)
 		t.hotMark = append(t.hotMark, false)
@@ -310,7 +342,7 @@ func (t *Tracker) takeSlot() uint32 {
 	}
 	s := t.free[n-1]
 	t.free = t.free[:n-1]
-	t.head[s], t.tot[s], t.in[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	t.heat(s)
@@ -319,7 +351,7 @@ func (t *Tracker) takeSlot() uint32 {
 
 // release frees an empty slot; its id is retired for good.
 func (t *Tracker) release(s uint32) {
-	t.tot[s], t.in[s] = 0, 0
+	t.tot[s], t.in[s], t.mtot[s] = 0, 0, 0
 	t.id[s] = NoCommunity
 	t.free = append(t.free, s)
 }
@@ -340,6 +372,7 @@ func (t *Tracker) touch(u uint32) {
 	if t.comm[u] == noSlot {
 		s := t.newSlot()
 		t.link(u, s)
+		t.mtot[s] = t.g.NodeWeight(u)
 		t.heat(s)
 	}
 }
@@ -395,7 +428,7 @@ func (t *Tracker) Communities() []CommunityStats {
 	for s := range t.head {
 		if t.size[s] > 0 {
 			// NB: kept sums can round a few ulps below zero.
-			out = append(out, CommunityStats{ID: t.id[s], Size: int(t.size[s]), Internal: max(0, t.in[s]/2), Degree: max(0, t.tot[s])})
+			out = append(out, CommunityStats{ID: t.id[s], Size: int(t.size[s]), Internal: max(0, t.in[s]/2), Degree: max(0, t.tot[s]), Weight: max(0, t.mtot[s])})
 		}
 	}
 	sortStats(out)
@@ -405,9 +438,23 @@ func (t *Tracker) Communities() []CommunityStats {
 // NumCommunities returns the number of communities.
 func (t *Tracker) NumCommunities() int { return len(t.head) - len(t.free) }
 
-// Modularity returns Q of the current partition from the kept totals.
+// Modularity returns Q of the current partition from the kept totals: at
+// the options' resolution for the modularity objective, at resolution 1
+// for CPM (for comparison).
 func (t *Tracker) Modularity() float64 {
+	if t.o.Objective == ObjectiveCPM {
+		return qFrom(t.in, t.tot, t.g.m2, 1)
+	}
 	return qFrom(t.in, t.tot, t.g.m2, t.o.Resolution)
+}
+
+// Quality returns the value of the options' objective for the current
+// partition from the kept totals: Q for modularity, H for CPM.
+func (t *Tracker) Quality() float64 {
+	if t.o.Objective == ObjectiveCPM {
+		return cpmFrom(t.in, t.mtot, t.o.Resolution)
+	}
+	return t.Modularity()
 }
 
 // Apply applies a batch of changes and re-optimises the touched region (see
@@ -577,6 +624,7 @@ func (t *Tracker) removeNode(u uint32) {
 		}
 	})
 	t.tot[c] -= ku
+	t.mtot[c] -= t.g.NodeWeight(u)
 	t.in[c] -= 2 * self
 	t.lost[c] += 2 * self
 	t.unlink(u)

@@ -24,4 +24,7 @@ type CommunityStats struct {
 	Internal float64
 	// Degree is the sum of the weighted degrees of the members (tot_c).
 	Degree float64
+	// Weight is the sum of the node weights of the members (n_c of the CPM
+	// objective; Size when every node weighs 1).
+	Weight float64
 }
