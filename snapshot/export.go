@@ -79,6 +79,8 @@ type HeaderJSON struct {
 	Time        string  `json:"time"`
 	Modularity  float64 `json:"modularity"`
 	Gamma       float64 `json:"gamma"`
+	Objective   string  `json:"objective"`
+	Quality     float64 `json:"quality"`
 	TotalWeight float64 `json:"total_weight"`
 	Nodes       int     `json:"nodes"`
 	Edges       int     `json:"edges"`
@@ -91,7 +93,7 @@ func (h *Header) JSON() HeaderJSON {
 	return HeaderJSON{
 		Schema: JSONSchema, Kind: "header", ID: h.ID, Graph: h.Graph, Seq: h.Seq,
 		Watermark: RFC3339(h.Watermark), WatermarkMs: h.Watermark, Time: RFC3339(h.Time),
-		Modularity: h.Modularity, Gamma: h.Gamma, TotalWeight: h.TotalWeight,
+		Modularity: h.Modularity, Gamma: h.Gamma, Objective: h.Objective.String(), Quality: h.Quality, TotalWeight: h.TotalWeight,
 		Nodes: h.Nodes, Edges: h.Edges, Communities: h.Communities, Note: Note,
 	}
 }

@@ -32,10 +32,17 @@ type Header struct {
 	// the end of an input. Never the wall clock, so that a replay and the
 	// daemon give the same snapshots for the same input.
 	Time int64
-	// Modularity is the modularity of the partition at resolution Gamma.
+	// Modularity is the modularity of the partition at resolution Gamma
+	// for the modularity objective; for CPM, at resolution 1.
 	Modularity float64
-	// Gamma is the resolution parameter.
+	// Gamma is the resolution parameter of the objective.
 	Gamma float64
+	// Objective is the quality function the tracker maximised; snapshots
+	// stored before it was recorded read as modularity.
+	Objective tracker.Objective
+	// Quality is the value of the objective: Modularity for modularity, H
+	// for CPM (see the tracker's doc.go, Objective).
+	Quality float64
 	// TotalWeight is m, the total edge weight of the graph. If zero, Freeze
 	// sets it to half the sum of the community degrees.
 	TotalWeight float64
@@ -79,7 +86,8 @@ type Snapshot struct {
 // Freeze builds a snapshot from membership (the stable community id of each
 // dense node id, [tracker.NoCommunity] for absent nodes) and the tracker's
 // per-community statistics. Statistics with Size 0 and no members are
-// skipped. It sets h.Nodes and h.Communities from the data (the caller's
+// skipped. It sets h.Quality to h.Modularity for the modularity
+// objective, h.Nodes and h.Communities from the data (the caller's
 // values are ignored), h.TotalWeight if zero, and computes Density and
 // Conductance (see [Community]). It runs in O(n + k log k) for n nodes and k
 // communities, with no maps. Members share one backing array.
@@ -89,6 +97,9 @@ func Freeze(h Header, membership []uint64, stats []tracker.CommunityStats) (*Sna
 	}
 	if !finite(h.TotalWeight) || h.TotalWeight < 0 {
 		return nil, fmt.Errorf("%w: total weight %v", ErrInvalid, h.TotalWeight)
+	}
+	if h.Objective == tracker.ObjectiveModularity {
+		h.Quality = h.Modularity
 	}
 	// Order the statistics by id.
 	order := make([]int32, len(stats))

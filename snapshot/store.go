@@ -8,6 +8,8 @@ import (
 	"math"
 
 	"github.com/cockroachdb/pebble/v2"
+
+	"shoal/tracker"
 )
 
 // ErrNotFound is returned (wrapped) when a snapshot does not exist.
@@ -321,6 +323,13 @@ func encodeHeader(dst []byte, h *Header) []byte {
 	dst = binary.AppendUvarint(dst, uint64(h.Nodes))
 	dst = binary.AppendUvarint(dst, uint64(h.Edges))
 	dst = binary.AppendUvarint(dst, uint64(h.Communities))
+	// Added later, at the end and only for an objective other than
+	// modularity, so that older headers still decode (as modularity,
+	// quality = modularity) and every header has one encoding.
+	if h.Objective != tracker.ObjectiveModularity {
+		dst = append(dst, byte(h.Objective))
+		dst = binary.BigEndian.AppendUint64(dst, math.Float64bits(h.Quality))
+	}
 	return binary.BigEndian.AppendUint32(dst, crcOf(dst))
 }
 
@@ -477,6 +486,16 @@ func decodeHeaderBody(b []byte) (Header, error) {
 	h.Nodes = d.count("node count")
 	h.Edges = d.count("edge count")
 	h.Communities = d.count("community count")
+	h.Quality = h.Modularity
+	if d.err == nil && len(d.buf) > 0 {
+		obj := d.buf[0]
+		d.buf = d.buf[1:]
+		if obj == byte(tracker.ObjectiveModularity) || obj > byte(tracker.ObjectiveCPM) {
+			d.fail(fmt.Sprintf("objective %d after the counts", obj))
+		}
+		h.Objective = tracker.Objective(obj)
+		h.Quality = d.float("quality", false)
+	}
 	if err := d.done(); err != nil {
 		return Header{}, err
 	}

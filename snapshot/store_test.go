@@ -84,6 +84,9 @@ func randomSnapshot(t testing.TB, r *rand.Rand, id uint64, n int) *Snapshot {
 	graph := []string{"", "payments", "graph with spaces \u00e9\u4e16", string(bytes.Repeat([]byte{'x'}, 300))}[r.IntN(4)]
 	h := Header{ID: id, Graph: graph, Seq: r.Uint64(), Watermark: r.Int64() - math.MaxInt64/2, Time: -r.Int64N(1 << 50),
 		Modularity: r.Float64() - 0.5, Gamma: r.Float64() * 3, Edges: r.IntN(1 << 30)}
+	if r.IntN(2) == 0 {
+		h.Objective, h.Quality = tracker.ObjectiveCPM, r.Float64()*1000-10
+	}
 	s, err := Freeze(h, membership, stats)
 	if err != nil {
 		t.Fatal(err)

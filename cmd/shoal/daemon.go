@@ -57,6 +57,7 @@ type daemonOptions struct {
 	snapshotKeep   int
 	snapshotOnExit bool
 	topts          tracker.Options
+	objectiveSet   bool // --objective or --resolution given (else the store's)
 	eo             events.Options
 	rebuild        string
 	keyFile        string
@@ -300,6 +301,9 @@ func (d *daemon) openStore() error {
 	if err := d.settleSchedule(); err != nil {
 		return err
 	}
+	if err := d.settleObjective(); err != nil {
+		return err
+	}
 	d.log.Info("store: open", "dir", dir, "graph", o.graph, "window", windowText(o.window), "pseudonymized", d.pseudo != nil,
 		"applied_seq", s.State().Applied, "events_applied", s.State().EventsApplied)
 	return nil
@@ -362,6 +366,55 @@ func (d *daemon) settleSchedule() error {
 	} else {
 		d.log.Info("snapshots", "schedule", o.schedule.String())
 	}
+	return nil
+}
+
+// settingObjective is the store setting of the objective: one byte
+// (tracker.Objective) and the resolution (8 bytes, IEEE 754 big-endian).
+const settingObjective = "objective"
+
+// settleObjective makes the tracker's objective and resolution the ones
+// the flags give, or, without the flags, the ones stored with the store, so
+// that a restart without them keeps optimising what the store was. A
+// partition optimised for one objective or resolution is a poor start for
+// another: a change turns --rebuild auto into a static rebuild (logged),
+// and is refused with --rebuild snapshot.
+func (d *daemon) settleObjective() error {
+	o := d.o
+	v, found, err := d.store.Setting(settingObjective)
+	if err != nil {
+		return err
+	}
+	if found {
+		if len(v) != 9 || v[0] > byte(tracker.ObjectiveCPM) {
+			return fmt.Errorf("store: setting %s: %d bytes, want 9 with a known objective", settingObjective, len(v))
+		}
+		obj, res := tracker.Objective(v[0]), math.Float64frombits(binary.BigEndian.Uint64(v[1:]))
+		switch {
+		case !o.objectiveSet:
+			o.topts.Objective, o.topts.Resolution = obj, res
+		case obj != o.topts.Objective || res != o.topts.Resolution:
+			was := fmt.Sprintf("%s at resolution %g", obj, res)
+			now := fmt.Sprintf("%s at resolution %g", o.topts.Objective, o.topts.Resolution)
+			switch o.rebuild {
+			case "snapshot":
+				return usagef("the store was tracked with %s; %s needs a fresh partition: use --rebuild static (or auto), or drop --objective and --resolution", was, now)
+			case "auto":
+				o.rebuild = "static"
+			}
+			d.log.Warn("objective changed; the tracker is rebuilt from scratch", "was", was, "now", now)
+		}
+	}
+	if err := o.topts.Validate(); err != nil {
+		return fmt.Errorf("store: setting %s: %w", settingObjective, err)
+	}
+	val := append([]byte{byte(o.topts.Objective)}, binary.BigEndian.AppendUint64(nil, math.Float64bits(o.topts.Resolution))...)
+	if !found || string(val) != string(v) {
+		if err := d.store.PutSetting(settingObjective, val); err != nil {
+			return err
+		}
+	}
+	d.log.Info("objective", "objective", o.topts.Objective.String(), "resolution", o.topts.Resolution)
 	return nil
 }
 

@@ -100,3 +100,34 @@ func TestDaemonScheduleStored(t *testing.T) {
 		t.Fatalf("a restart after --snapshot-every 0 did not keep it off:\n%s", l)
 	}
 }
+
+// TestDaemonObjectiveStored: the objective and resolution are kept with the
+// store: a restart without --objective keeps CPM, a restart with another
+// objective rebuilds from scratch (logged), and --rebuild snapshot with a
+// changed objective is refused.
+func TestDaemonObjectiveStored(t *testing.T) {
+	ts := startTestServer(t)
+	data := filepath.Join(t.TempDir(), "data")
+	logOf := func(args ...string) string {
+		d := startDaemon(t, data, nil, append([]string{"--nats", ts.url(), "--graph", "obj"}, args...)...)
+		d.stop()
+		b, err := os.ReadFile(d.stderr)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return string(b)
+	}
+	if l := logOf("--objective", "cpm", "--resolution", "0.1"); !strings.Contains(l, `"objective":"cpm","resolution":0.1`) {
+		t.Fatalf("first start with --objective cpm:\n%s", l)
+	}
+	if l := logOf(); !strings.Contains(l, `"objective":"cpm","resolution":0.1`) || strings.Contains(l, "objective changed") {
+		t.Fatalf("a restart without the flag did not keep cpm at 0.1:\n%s", l)
+	}
+	if l := logOf("--objective", "modularity"); !strings.Contains(l, "objective changed") || !strings.Contains(l, `"objective":"modularity","resolution":1`) {
+		t.Fatalf("a restart with --objective modularity:\n%s", l)
+	}
+	_, errs, code := runIn(t, "", "run", "--data", data, "--http", "off", "--nats", ts.url(), "--graph", "obj", "--objective", "cpm", "--rebuild", "snapshot")
+	if code != 2 || !strings.Contains(errs, "--rebuild static") {
+		t.Fatalf("--rebuild snapshot with a changed objective: exit %d\n%s", code, errs)
+	}
+}

@@ -98,7 +98,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		},
 		httpAddr: *httpAddr, schedule: sched, scheduleSet: set[tf.names[0]] || set[tf.names[1]],
 		applyEvery: *tf.applyEvery, history: *tf.history, snapshotKeep: *keep, snapshotOnExit: *onExit,
-		topts: topts, eo: eo, rebuild: *rebuild, keyFile: *keyFile, readyFile: *readyFile,
+		topts: topts, objectiveSet: set["objective"] || set["resolution"], eo: eo, rebuild: *rebuild, keyFile: *keyFile, readyFile: *readyFile,
 	}
 	if strings.EqualFold(o.httpAddr, "off") {
 		o.httpAddr = ""

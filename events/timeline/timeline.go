@@ -470,6 +470,8 @@ func Freeze(tr *tracker.Tracker, h snapshot.Header, mem []uint64) (*snapshot.Sna
 	g := tr.Graph()
 	h.Modularity = finite(tr.Modularity())
 	h.Gamma = tr.Options().Resolution
+	h.Objective = tr.Options().Objective
+	h.Quality = finite(tr.Quality())
 	h.TotalWeight, h.Edges = g.TotalWeight(), g.Edges()
 	s, err := snapshot.Freeze(h, mem, stats)
 	return s, mem, err
