@@ -165,6 +165,14 @@ func runDaemon(ctx context.Context, e *env, o *daemonOptions, log *slog.Logger) 
 		}()
 		log.Info("http: listening", "addr", httpAddr)
 	}
+	// The ingest stream exists before the daemon says it is ready, so that
+	// a producer started on the ready file finds it (shoal publish refuses
+	// a missing stream); the consumer creates it too, with retries, when
+	// the server is not reachable yet.
+	streamCfg := d.cons.Options()
+	if _, err := ingest.EnsureStream(ctx, d.js, streamCfg.StreamConfig()); err != nil {
+		log.Warn("ingest: stream not ready yet; the consumer retries", "err", err)
+	}
 	if o.readyFile != "" {
 		info := map[string]any{"http": httpAddr, "nats": d.natsURL, "pid": os.Getpid(), "graph": d.o.graph}
 		if err := writeFileAtomic(o.readyFile, func(w io.Writer) error { return json.NewEncoder(w).Encode(info) }); err != nil {
