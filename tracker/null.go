@@ -71,22 +71,59 @@ func Rewire(g *Graph, seed uint64, swaps int) *Graph {
 // same optimiser reaches on rewired graphs with the same degrees.
 type Significance struct {
 	Observed float64
-	// NullMean and NullStd summarise Q on the rewired graphs; Z is
-	// (Observed - NullMean) / NullStd (0 when NullStd is 0).
+	// NullMean and NullStd summarise the quality on the rewired graphs; Z
+	// is (Observed - NullMean) / NullStd (0 when NullStd is 0).
 	NullMean, NullStd, Z float64
 	Null                 []float64
+	// Communities are the communities found on the rewired graphs, with
+	// their InternalZ, for [Calibrate].
+	Communities []NullCommunity
 }
 
-// Null runs the optimiser with o on k rewirings of g (10 |E| swaps each,
-// seeds o.Seed+1 .. o.Seed+k) and compares observed with the quality of
-// o's objective they reach (Q, or H for CPM; node weights are kept).
+// Null runs the optimiser with o on k rewirings of g ([NullRun] 0..k-1)
+// and compares observed with the quality of o's objective they reach (Q,
+// or H for CPM; node weights are kept).
 func Null(g *Graph, o *Options, observed float64, k int) Significance {
+	runs := make([]NullResult, k)
+	for r := range runs {
+		runs[r] = NullRun(g, o, r)
+	}
+	return Summarise(observed, runs)
+}
+
+// NullResult is one optimised rewiring.
+type NullResult struct {
+	Quality     float64
+	Communities []NullCommunity
+}
+
+// NullRun is run r of [Null]: the optimiser with o on the rewiring of g
+// with seed o.Seed+r+1 (10 |E| swaps). Runs are independent, so a caller
+// may run them in parallel; each is deterministic.
+func NullRun(g *Graph, o *Options, r int) NullResult {
+	rg := Rewire(g, o.Seed+uint64(r)+1, 10*g.Edges())
+	p := Detect(rg, o)
+	res := NullResult{Quality: p.Quality}
+	m := rg.TotalWeight()
+	wbar := 0.0
+	if rg.Edges() > 0 {
+		wbar = m / float64(rg.Edges())
+	}
+	for _, c := range p.Communities {
+		_, z := InternalZ(c.Internal, c.Degree, m, wbar)
+		res.Communities = append(res.Communities, NullCommunity{Size: c.Size, Z: z})
+	}
+	return res
+}
+
+// Summarise is the Significance of observed against the runs of Null.
+func Summarise(observed float64, runs []NullResult) Significance {
 	s := Significance{Observed: observed}
-	for r := 0; r < k; r++ {
-		rg := Rewire(g, o.Seed+uint64(r)+1, 10*g.Edges())
-		p := Detect(rg, o)
-		s.Null = append(s.Null, p.Quality)
-		s.NullMean += p.Quality
+	k := len(runs)
+	for _, r := range runs {
+		s.Null = append(s.Null, r.Quality)
+		s.NullMean += r.Quality
+		s.Communities = append(s.Communities, r.Communities...)
 	}
 	if k == 0 {
 		return s
