@@ -389,8 +389,9 @@ func (m *matcher) name(v uint32) string {
 	return strconv.FormatUint(uint64(v), 10)
 }
 
-func side(c *snapshot.Community) Side {
-	return Side{Community: c.ID, Size: c.Size, Stats: Stats{Internal: c.Internal, Degree: c.Degree, Density: c.Density, Conductance: c.Conductance}}
+func side(s *snapshot.Snapshot, c *snapshot.Community) Side {
+	exp, z := s.InternalZ(c)
+	return Side{Community: c.ID, Size: c.Size, Stats: Stats{Internal: c.Internal, Degree: c.Degree, Density: c.Density, Conductance: c.Conductance, Expected: exp, Z: z}}
 }
 
 func (m *matcher) build() []Event {
@@ -414,12 +415,12 @@ func (m *matcher) build() []Event {
 
 		lo := len(sides)
 		for _, i := range m.slab[p.before.lo:p.before.hi] {
-			sides = append(sides, m.side(&m.a.Communities[i]))
+			sides = append(sides, m.side(m.a, &m.a.Communities[i]))
 		}
 		ev.Before = sides[lo:len(sides):len(sides)]
 		lo = len(sides)
 		for _, j := range m.slab[p.after.lo:p.after.hi] {
-			sides = append(sides, m.side(&m.b.Communities[j]))
+			sides = append(sides, m.side(m.b, &m.b.Communities[j]))
 		}
 		ev.After = sides[lo:len(sides):len(sides)]
 		lo = len(overlaps)
@@ -509,8 +510,8 @@ func diff(dx, dy, x, y []uint32, limit int) ([]uint32, []uint32, int, int) {
 	return dx, dy, nx, ny
 }
 
-func (m *matcher) side(c *snapshot.Community) Side {
-	s := side(c)
+func (m *matcher) side(sn *snapshot.Snapshot, c *snapshot.Community) Side {
+	s := side(sn, c)
 	if m.o.Members {
 		s.Members = make([]string, len(c.Members))
 		for k, v := range c.Members {

@@ -165,7 +165,9 @@ func TestScenarios(t *testing.T) {
 // TestEventRecord checks the full record of one continuation: K6 {0..5} = 1
 // and K4 {6..9} = 2 joined by the edge 5-6. By hand, community 1: internal
 // 15, degree 2*15+1 = 31, density 15/15 = 1, cut 1, 2m = 2*22 = 44,
-// conductance 1/min(31, 13) = 1/13.
+// conductance 1/min(31, 13) = 1/13; the configuration model expects
+// 31^2 / (4 * 22) = 10.920455 inside (unit weights), so z = (15 -
+// 10.920455) / sqrt(10.920455) = 1.234501.
 func TestEventRecord(t *testing.T) {
 	edges := cat(clique(span_(0, 5)...), clique(6, 7, 8, 9), [][2]int{{5, 6}})
 	parts := map[uint64][]int{1: span_(0, 5), 2: {6, 7, 8, 9}}
@@ -177,6 +179,12 @@ func TestEventRecord(t *testing.T) {
 	ev := evs[0]
 	wantSide := Side{Community: 1, Size: 6, Stats: Stats{Internal: 15, Degree: 31, Density: 1, Conductance: 1.0 / 13},
 		Members: []string{"acct-a", "acct-b", "acct-c", "acct-d", "acct-e", "acct-f"}}
+	for _, s := range [][]Side{ev.Before, ev.After} {
+		if st := s[0].Stats; math.Abs(st.Expected-961.0/88) > 1e-9 || math.Abs(st.Z-1.234501) > 1e-6 {
+			t.Errorf("expected %v, z %v; by hand 10.920455 and 1.234501", st.Expected, st.Z)
+		}
+		s[0].Stats.Expected, s[0].Stats.Z = 0, 0
+	}
 	if !reflect.DeepEqual(ev.Before, []Side{wantSide}) || !reflect.DeepEqual(ev.After, []Side{wantSide}) {
 		t.Errorf("before %+v after %+v, want %+v", ev.Before, ev.After, wantSide)
 	}

@@ -89,6 +89,13 @@ type Stats struct {
 	Degree      float64 `json:"degree"`
 	Density     float64 `json:"density"`
 	Conductance float64 `json:"conductance"`
+	// Expected and Z compare Internal with the configuration model's
+	// expectation for the community's degree (tracker.InternalZ): how
+	// unusual the group would be if drawn blind. A screening figure for
+	// ranking alerts, not a test: the optimiser chose the group because it
+	// is dense (shoal detect --null calibrates it).
+	Expected float64 `json:"expected"`
+	Z        float64 `json:"z"`
 }
 
 // Overlap is the number of nodes a community of the earlier snapshot (From)

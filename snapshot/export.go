@@ -114,6 +114,8 @@ type jsonCommunity struct {
 	Degree      float64  `json:"degree"`
 	Density     float64  `json:"density"`
 	Conductance float64  `json:"conductance"`
+	Expected    float64  `json:"expected"`
+	Z           float64  `json:"z"`
 	Members     []string `json:"members"`
 }
 
@@ -134,9 +136,10 @@ func WriteJSONL(w io.Writer, s *Snapshot, name func(uint32) string) error {
 		for _, v := range c.Members {
 			members = append(members, nf.name(v))
 		}
+		exp, z := s.InternalZ(c)
 		err = enc.Encode(jsonCommunity{
 			Kind: "community", Community: c.ID, Size: c.Size, Internal: c.Internal, Degree: c.Degree,
-			Density: c.Density, Conductance: c.Conductance, Members: members,
+			Density: c.Density, Conductance: c.Conductance, Expected: exp, Z: z, Members: members,
 		})
 	}
 	if err == nil {

@@ -279,3 +279,15 @@ func (x *idIndex) get(k uint64) int32 {
 		}
 	}
 }
+
+// InternalZ returns the configuration model's expected internal weight of
+// c and c's z-score against it (tracker.InternalZ, with the mean edge
+// weight TotalWeight / Edges of the snapshot's graph): a screening figure
+// that ranks how unusual each group would be if drawn blind, not a test.
+func (s *Snapshot) InternalZ(c *Community) (expected, z float64) {
+	wbar := 0.0
+	if s.Edges > 0 {
+		wbar = s.TotalWeight / float64(s.Edges)
+	}
+	return tracker.InternalZ(c.Internal, c.Degree, s.TotalWeight, wbar)
+}
