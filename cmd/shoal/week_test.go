@@ -433,3 +433,29 @@ func TestDaemonWeek(t *testing.T) {
 		}
 	}
 }
+
+// TestReplayWeekCPM: the same week under the CPM objective at its default
+// resolution gives every planted change with the planted members and no
+// other non-continue event at all (modularity gives up to two: pairs of
+// small groups its resolution limit joins on the sparse first day), for
+// small and large batches alike.
+func TestReplayWeekCPM(t *testing.T) {
+	w := makeWeek(1)
+	dir := t.TempDir()
+	file := w.write(t, dir)
+	for _, every := range []string{"1", "1000"} {
+		evOut := filepath.Join(dir, "cpm"+every)
+		_, errs, code := runIn(t, "", "replay", file, "--every", "24h", "--apply-every", every, "--members",
+			"--objective", "cpm", "--events-out", evOut)
+		if code != 0 {
+			t.Fatalf("--apply-every %s: exit %d: %s", every, code, errs)
+		}
+		data, err := os.ReadFile(evOut)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if other := w.planted(t, parseEvents(t, string(data))); len(other) > 0 {
+			t.Errorf("--apply-every %s: %d other non-continue events: %v", every, len(other), other)
+		}
+	}
+}
