@@ -1,5 +1,7 @@
 package tracker
 
+import "math"
+
 // Partition is the result of a static run.
 type Partition struct {
 	// Membership is the stable community id of each node slot of the graph;
@@ -76,6 +78,30 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 	if s.split {
 		c = splitDisconnected(&l, comm, c)
 	}
+	in, tot, mass := s.in, s.tot, s.mass
+	levels, moves := s.levels, s.moves
+	// Further passes (Traag, Waltman and van Eck 2019 iterate the
+	// algorithm): each restarts from the last partition and is kept only
+	// when it raises the quality.
+	passes := opts.Passes
+	if passes == 0 {
+		passes = maxPasses
+	}
+	q := denseQuality(g, comm, c, &opts)
+	for pass := 1; pass < passes; pass++ {
+		next, nc := s.run(l, comm, opts.MaxLevels)
+		if s.split {
+			nc = splitDisconnected(&l, next, nc)
+		}
+		moves += s.moves
+		nq := denseQuality(g, next, nc, &opts)
+		if !(nq > q+1e-10*max(1, math.Abs(q))) {
+			break
+		}
+		comm, c, q = next, nc, nq
+		in, tot, mass = s.in, s.tot, s.mass
+		levels = s.levels
+	}
 	var prevIDs []uint64
 	if prev != nil {
 		prevIDs = make([]uint64, n)
@@ -86,9 +112,29 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 			}
 		}
 	}
-	p := finish(g, comm, c, prevIDs, &next, &opts, s.in, s.tot, s.mass)
-	p.Levels, p.Moves = s.levels, s.moves
+	p := finish(g, comm, c, prevIDs, &next, &opts, in, tot, mass)
+	p.Levels, p.Moves = levels, moves
 	return p
+}
+
+// maxPasses caps the passes of a static run when Options.Passes is zero.
+const maxPasses = 16
+
+// denseQuality is the objective's value of a dense partition of g.
+func denseQuality(g *Graph, comm []uint32, c int, o *Options) float64 {
+	in, tot := communityTotals(g, comm, c)
+	if o.Objective != ObjectiveCPM {
+		return qFrom(in, tot, g.m2, o.Resolution)
+	}
+	for i := range tot {
+		tot[i] = 0
+	}
+	for i, ci := range comm {
+		if g.alive[i] {
+			tot[ci] += g.NodeWeight(uint32(i))
+		}
+	}
+	return cpmFrom(in, tot, o.Resolution)
 }
 
 // finish turns a dense partition into a Partition: stable ids, statistics
