@@ -5,6 +5,7 @@
 //	shoal-bench static [--max-edges N] [--json]
 //	shoal-bench incremental [--max-edges N] [--batches K] [--json]
 //	shoal-bench accuracy [--n N] [--runs K] [--json]
+//	shoal-bench refs [--max-edges N] [--seeds K] [--resolution G] [--python PATH] [--json]
 //	shoal-bench ingest|replay|history [options] [--json]
 package main
 
@@ -40,6 +41,10 @@ func main() {
 		err = runReplay(ctx, os.Args[2:], os.Stdout)
 	case "history":
 		err = runHistory(ctx, os.Args[2:], os.Stdout)
+	case "refs":
+		err = runRefs(ctx, os.Args[2:], os.Stdout)
+	case "refs-peak": // the child process of refs (refs.go, shoalPeak)
+		err = runRefsPeak(ctx, os.Args[2:], os.Stdout)
 	case "help", "-h", "--help":
 		usage(os.Stdout)
 		return
@@ -54,7 +59,7 @@ func main() {
 }
 
 func usage(w io.Writer) {
-	fmt.Fprintln(w, "usage: shoal-bench static|incremental|accuracy|ingest|replay|history [options] [--json]")
+	fmt.Fprintln(w, "usage: shoal-bench static|incremental|accuracy|ingest|replay|history|refs [options] [--json]")
 }
 
 // emitter prints rows as a table or as JSON lines.
