@@ -31,23 +31,7 @@ func BenchmarkApply(b *testing.B) {
 	g := lfr(b, 100_000, 0.3, 1)
 	for _, size := range []int{10, 100, 1000, 10000} {
 		b.Run(fmt.Sprintf("batch=%d", size), func(b *testing.B) {
-			tr, err := tracker.NewFrom(tracker.NewGraph(g.N, g.Edges), &tracker.Options{Seed: 1})
-			if err != nil {
-				b.Fatal(err)
-			}
-			churn := gen.NewChurn(g, 3)
-			batches := make([][]tracker.Change, 64)
-			for i := range batches {
-				batches[i] = churn.Batch(size)
-			}
-			i := 0
-			b.ReportAllocs()
-			for b.Loop() {
-				if _, err := tr.Apply(batches[i%len(batches)]); err != nil {
-					b.Fatal(err)
-				}
-				i++
-			}
+			benchBatches(b, g, &tracker.Options{Seed: 1}, size)
 		})
 	}
 }
@@ -67,23 +51,27 @@ func BenchmarkCPM(b *testing.B) {
 			tracker.Detect(tg, o)
 		}
 	})
-	b.Run("batch=1000", func(b *testing.B) {
-		tr, err := tracker.NewFrom(tracker.NewGraph(g.N, g.Edges), o)
-		if err != nil {
+	b.Run("batch=1000", func(b *testing.B) { benchBatches(b, g, o, len(g.Edges)/1000) })
+}
+
+// benchBatches times Apply of batches of size random changes (gen.Churn) on
+// a tracker over g started from a static run.
+func benchBatches(b *testing.B, g *gen.Graph, o *tracker.Options, size int) {
+	tr, err := tracker.NewFrom(tracker.NewGraph(g.N, g.Edges), o)
+	if err != nil {
+		b.Fatal(err)
+	}
+	churn := gen.NewChurn(g, 3)
+	batches := make([][]tracker.Change, 64)
+	for i := range batches {
+		batches[i] = churn.Batch(size)
+	}
+	i := 0
+	b.ReportAllocs()
+	for b.Loop() {
+		if _, err := tr.Apply(batches[i%len(batches)]); err != nil {
 			b.Fatal(err)
 		}
-		churn := gen.NewChurn(g, 3)
-		batches := make([][]tracker.Change, 64)
-		for i := range batches {
-			batches[i] = churn.Batch(len(g.Edges) / 1000)
-		}
-		i := 0
-		b.ReportAllocs()
-		for b.Loop() {
-			if _, err := tr.Apply(batches[i%len(batches)]); err != nil {
-				b.Fatal(err)
-			}
-			i++
-		}
-	})
+		i++
+	}
 }

@@ -75,15 +75,7 @@ func TestSubjectMatches(t *testing.T) {
 func TestDaemonScheduleStored(t *testing.T) {
 	ts := startTestServer(t)
 	data := filepath.Join(t.TempDir(), "data")
-	logOf := func(args ...string) string {
-		d := startDaemon(t, data, nil, append([]string{"--nats", ts.url(), "--graph", "sched"}, args...)...)
-		d.stop()
-		b, err := os.ReadFile(d.stderr)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return string(b)
-	}
+	logOf := restartLog(t, ts.url(), data, "sched")
 	if l := logOf("--snapshot-every", "2h"); !strings.Contains(l, `"schedule":"every 2h0m0s"`) {
 		t.Fatalf("first start with --snapshot-every 2h:\n%s", l)
 	}
@@ -108,15 +100,7 @@ func TestDaemonScheduleStored(t *testing.T) {
 func TestDaemonObjectiveStored(t *testing.T) {
 	ts := startTestServer(t)
 	data := filepath.Join(t.TempDir(), "data")
-	logOf := func(args ...string) string {
-		d := startDaemon(t, data, nil, append([]string{"--nats", ts.url(), "--graph", "obj"}, args...)...)
-		d.stop()
-		b, err := os.ReadFile(d.stderr)
-		if err != nil {
-			t.Fatal(err)
-		}
-		return string(b)
-	}
+	logOf := restartLog(t, ts.url(), data, "obj")
 	if l := logOf("--objective", "cpm", "--resolution", "0.1"); !strings.Contains(l, `"objective":"cpm","resolution":0.1`) {
 		t.Fatalf("first start with --objective cpm:\n%s", l)
 	}
@@ -129,5 +113,19 @@ func TestDaemonObjectiveStored(t *testing.T) {
 	_, errs, code := runIn(t, "", "run", "--data", data, "--http", "off", "--nats", ts.url(), "--graph", "obj", "--objective", "cpm", "--rebuild", "snapshot")
 	if code != 2 || !strings.Contains(errs, "--rebuild static") {
 		t.Fatalf("--rebuild snapshot with a changed objective: exit %d\n%s", code, errs)
+	}
+}
+
+// restartLog returns a function that starts the daemon on data with the
+// given flags, stops it and returns its log.
+func restartLog(t *testing.T, natsURL, data, graph string) func(args ...string) string {
+	return func(args ...string) string {
+		d := startDaemon(t, data, nil, append([]string{"--nats", natsURL, "--graph", graph}, args...)...)
+		d.stop()
+		b, err := os.ReadFile(d.stderr)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return string(b)
 	}
 }
