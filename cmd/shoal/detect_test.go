@@ -22,6 +22,7 @@ import (
 	"gonum.org/v1/gonum/graph/simple"
 
 	"shoal/tracker"
+	"shoal/tracker/gen"
 )
 
 // TestDetectScanAndNull: the resolution scan on karate reproduces gonum
@@ -750,4 +751,95 @@ func gonumQ(edges []fileEdge, memb map[string]uint64, gamma float64) float64 {
 		comms = append(comms, c)
 	}
 	return community.Q(g, comms, gamma)
+}
+
+// TestDetectRecommendedCPM: on an invented graph of many small planted
+// groups (LFR, groups of 8 to 30, mean degree 8, a quarter of each node's
+// links outside; about 10^5 edges), `detect --objective cpm --scan auto`
+// recommends a resolution at which CPM recovers at least 99% of the groups
+// (a group counts when one community matches it with Jaccard >= 0.8), and
+// the recommendation sits between the density of the links between groups
+// and the groups' own mean density.
+func TestDetectRecommendedCPM(t *testing.T) {
+	g, err := gen.LFR(gen.LFROptions{N: 25000, AvgDegree: 8, MaxDegree: 20, MinCommunity: 8, MaxCommunity: 30, Mu: 0.25, Seed: 1})
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	file := filepath.Join(dir, "groups.tsv")
+	f, err := os.Create(file)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := gen.WriteEdgeList(f, g); err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+	out, errs, code := runIn(t, "", "detect", file, "--objective", "cpm", "--scan", "auto", "--json")
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var res struct {
+		RecommendedResolution *float64 `json:"recommended_resolution"`
+	}
+	if err := json.Unmarshal([]byte(out), &res); err != nil || res.RecommendedResolution == nil {
+		t.Fatalf("no recommended resolution (%v): %s", err, out)
+	}
+	gamma := *res.RecommendedResolution
+	memb := filepath.Join(dir, "memb.tsv")
+	if _, errs, code := runIn(t, "", "detect", file, "--objective", "cpm", "--resolution", strconv.FormatFloat(gamma, 'g', -1, 64), "--out", memb); code != 0 {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	found := map[string]string{}
+	data, err := os.ReadFile(memb)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, line := range strings.Split(strings.TrimSpace(string(data)), "\n") {
+		k, v, _ := strings.Cut(line, "\t")
+		found[k] = v
+	}
+	size := map[string]int{}
+	for _, c := range found {
+		size[c]++
+	}
+	groups := make([][]int, g.Communities())
+	for i, c := range g.Membership {
+		groups[c] = append(groups[c], i)
+	}
+	recovered := 0
+	var density float64
+	inside := 0
+	for _, grp := range groups {
+		cnt := map[string]int{}
+		for _, u := range grp {
+			cnt[found[strconv.Itoa(u)]]++
+		}
+		for c, x := range cnt {
+			if float64(x)/float64(len(grp)+size[c]-x) >= 0.8 {
+				recovered++
+				break
+			}
+		}
+	}
+	in := make([]int, len(groups))
+	for _, e := range g.Edges {
+		if g.Membership[e.U] == g.Membership[e.V] {
+			in[g.Membership[e.U]]++
+			inside++
+		}
+	}
+	for c, grp := range groups {
+		s := float64(len(grp))
+		density += float64(in[c]) / (s * (s - 1) / 2)
+	}
+	density /= float64(len(groups))
+	between := float64(len(g.Edges)-inside) / (float64(g.N) * float64(g.N-1) / 2)
+	t.Logf("recommended %g: %d of %d groups recovered; group density %.3f, between %.2g", gamma, recovered, len(groups), density, between)
+	if float64(recovered) < 0.99*float64(len(groups)) {
+		t.Errorf("at the recommended %g CPM recovers %d of %d groups, want >= 99%%", gamma, recovered, len(groups))
+	}
+	if gamma <= between || gamma >= density {
+		t.Errorf("recommended %g outside (%g, %g), the densities between and inside the groups", gamma, between, density)
+	}
 }
