@@ -109,6 +109,7 @@ type graphSide struct {
 	Nodes       int     `json:"nodes"`
 	Edges       int     `json:"edges"`
 	TotalWeight float64 `json:"total_weight"`
+	Quality     float64 `json:"quality"`
 	Modularity  float64 `json:"modularity"`
 	Communities int     `json:"communities"`
 	Eligible    int     `json:"eligible"`
@@ -117,6 +118,7 @@ type graphSide struct {
 // diffSummary is the summary of shoal diff (text, or JSON with --json).
 type diffSummary struct {
 	Graph        string      `json:"graph"`
+	Objective    string      `json:"objective"`
 	Resolution   float64     `json:"resolution"`
 	Seed         uint64      `json:"seed"`
 	MinSize      int         `json:"min_size"`
@@ -253,7 +255,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	}
 	sA, sB := snaps[0], snaps[1]
 	sum := diffSummary{
-		Graph: name, Resolution: topts.Resolution, Seed: topts.Seed, MinSize: eo.MinSize,
+		Graph: name, Objective: topts.Objective.String(), Resolution: topts.Resolution, Seed: topts.Seed, MinSize: eo.MinSize,
 		Old:       side(pos[0], sA, eo.MinSize),
 		New:       side(pos[1], sB, eo.MinSize),
 		NodesKept: kept, NodesAdded: len(only), NodesRemoved: nOld - kept, Events: len(evs),
@@ -267,10 +269,10 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	if *asJSON {
 		return json.NewEncoder(e.stderr).Encode(sum)
 	}
-	fmt.Fprintf(e.stderr, "%s: %d nodes, %d edges, %d communities (%d of at least %d), modularity %.6f\n",
-		sum.Old.File, sum.Old.Nodes, sum.Old.Edges, sum.Old.Communities, sum.Old.Eligible, eo.MinSize, sum.Old.Modularity)
-	fmt.Fprintf(e.stderr, "%s: %d nodes, %d edges, %d communities (%d of at least %d), modularity %.6f\n",
-		sum.New.File, sum.New.Nodes, sum.New.Edges, sum.New.Communities, sum.New.Eligible, eo.MinSize, sum.New.Modularity)
+	for _, gs := range []graphSide{sum.Old, sum.New} {
+		fmt.Fprintf(e.stderr, "%s: %d nodes, %d edges, %d communities (%d of at least %d), %s\n",
+			gs.File, gs.Nodes, gs.Edges, gs.Communities, gs.Eligible, eo.MinSize, qualityText(sum.Objective, gs.Quality, gs.Modularity))
+	}
 	fmt.Fprintf(e.stderr, "nodes: %d in both, %d only in NEW, %d only in OLD\n", kept, len(only), nOld-kept)
 	fmt.Fprintf(e.stderr, "%d events: %s\n", sum.Events, sum.ByType.String())
 	return nil
@@ -341,7 +343,7 @@ func settle(g *tracker.Graph, o *tracker.Options, p *tracker.Partition) *tracker
 
 func side(file string, s *snapshot.Snapshot, minSize int) graphSide {
 	gs := graphSide{File: file, Nodes: s.Nodes, Edges: s.Edges, TotalWeight: s.TotalWeight,
-		Modularity: s.Modularity, Communities: len(s.Communities)}
+		Quality: s.Quality, Modularity: s.Modularity, Communities: len(s.Communities)}
 	gs.Eligible = eligible(s, minSize)
 	return gs
 }
@@ -384,4 +386,13 @@ func withOutput(e *env, path string, write func(w io.Writer) error) error {
 		return fmt.Errorf("write %s: %w", path, err)
 	}
 	return nil
+}
+
+// qualityText says what a partition's quality is: its modularity, or for
+// cpm its CPM value with its modularity for comparison.
+func qualityText(objective string, quality, modularity float64) string {
+	if objective == tracker.ObjectiveCPM.String() {
+		return fmt.Sprintf("CPM value %.6g (modularity %.6f, for comparison)", quality, modularity)
+	}
+	return fmt.Sprintf("modularity %.6f", modularity)
 }

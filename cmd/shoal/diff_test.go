@@ -26,10 +26,13 @@ func diffSummaryOf(t *testing.T, stderr string) diffSummary {
 // (the warm start keeps ids), the same members and Jaccard 1; no other
 // event type appears. On karate (Zachary 1977) and football (Girvan and
 // Newman 2002), testdata/SOURCES.md.
+// The same must hold under the CPM objective, whose value is then the
+// summary's quality.
 func TestDiffSelf(t *testing.T) {
-	for _, name := range []string{"karate.tsv", "football.tsv"} {
+	for _, c := range [][]string{{"karate.tsv"}, {"football.tsv"}, {"football.tsv", "--objective", "cpm", "--resolution", "0.2"}} {
+		name := c[0]
 		f := testdata(name)
-		out, errs, code := runIn(t, "", "diff", f, f, "--members", "--json")
+		out, errs, code := runIn(t, "", append([]string{"diff", f, f, "--members", "--json"}, c[1:]...)...)
 		if code != 0 {
 			t.Fatalf("%s: exit %d: %s", name, code, errs)
 		}
@@ -40,6 +43,9 @@ func TestDiffSelf(t *testing.T) {
 		}
 		if sum.Old.Modularity != sum.New.Modularity || sum.NodesAdded != 0 || sum.NodesRemoved != 0 {
 			t.Fatalf("%s: summary %+v", name, sum)
+		}
+		if len(c) > 1 && (sum.Objective != "cpm" || sum.Old.Quality != sum.New.Quality || sum.Old.Quality <= 0 || sum.Old.Quality == sum.Old.Modularity) {
+			t.Fatalf("%s under cpm: objective %q, quality %v and %v, modularity %v", name, sum.Objective, sum.Old.Quality, sum.New.Quality, sum.Old.Modularity)
 		}
 		for _, ev := range evs {
 			if ev.Type != events.Continue {

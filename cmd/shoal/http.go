@@ -19,6 +19,11 @@ type statsResponse struct {
 	Nodes       int     `json:"nodes"`
 	Edges       int     `json:"edges"`
 	TotalWeight float64 `json:"total_weight"`
+	// Objective and Quality: the objective the tracker maximises and its
+	// value (Q, or the CPM value H); Modularity is Q (at resolution 1 for
+	// cpm, for comparison).
+	Objective   string  `json:"objective"`
+	Quality     float64 `json:"quality"`
 	Modularity  float64 `json:"modularity"`
 	Communities int     `json:"communities"`
 	// AppliedSeq is the stream sequence of the last message applied;
@@ -73,6 +78,7 @@ func (d *daemon) stats() statsResponse {
 		g := tr.Graph()
 		r.Nodes, r.Edges, r.TotalWeight = g.Nodes(), g.Edges(), g.TotalWeight()
 		r.Modularity, r.Communities = finite(tr.Modularity()), tr.NumCommunities()
+		r.Objective, r.Quality = tr.Options().Objective.String(), finite(tr.Quality())
 	})
 	return r
 }
@@ -137,6 +143,7 @@ func (d *daemon) handler() http.Handler {
 			{"shoal_edges", "gauge", "Edges in the graph.", float64(s.Edges)},
 			{"shoal_total_weight", "gauge", "Total edge weight m.", s.TotalWeight},
 			{"shoal_modularity", "gauge", "Modularity of the current partition.", s.Modularity},
+			{"shoal_quality", "gauge", "Value of the tracked objective (modularity, or the CPM value) of the current partition.", s.Quality},
 			{"shoal_communities", "gauge", "Communities in the current partition.", float64(s.Communities)},
 			{"shoal_snapshots", "gauge", "Snapshots kept in the store.", float64(s.Snapshots)},
 			{"shoal_store_bytes", "gauge", "Bytes the store takes on disk.", float64(s.StoreBytes)},

@@ -113,6 +113,9 @@ type replaySummary struct {
 	Batches       int         `json:"batches"`
 	FullPasses    int         `json:"full_passes"`
 	Snapshots     int         `json:"snapshots"`
+	Objective     string      `json:"objective"`
+	QualityMin    float64     `json:"quality_min"`
+	QualityMax    float64     `json:"quality_max"`
 	ModularityMin float64     `json:"modularity_min"`
 	ModularityMax float64     `json:"modularity_max"`
 	Lifecycle     int         `json:"lifecycle_events"`
@@ -194,7 +197,8 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 		return usageError{err}
 	}
 	r.sum = replaySummary{File: pos[0], Graph: name, Events: len(in.evs), Lines: in.lines, Sorted: in.sorted,
-		Window: tf.window.String(), ApplyEvery: *tf.applyEvery, ModularityMin: math.NaN(), ModularityMax: math.NaN()}
+		Window: tf.window.String(), ApplyEvery: *tf.applyEvery, ModularityMin: math.NaN(), ModularityMax: math.NaN(),
+		QualityMin: math.NaN(), QualityMax: math.NaN(), Objective: topts.Objective.String()}
 	if len(in.evs) > 0 {
 		r.sum.FirstTime = snapshot.RFC3339(in.evs[0].ts)
 		r.sum.LastTime = snapshot.RFC3339(in.evs[len(in.evs)-1].ts)
@@ -440,11 +444,13 @@ func (r *replayer) snapshot(s *snapshot.Snapshot, evs []events.Event, _ *events.
 			return err
 		}
 	}
-	q := s.Modularity
+	q, h := s.Modularity, s.Quality
 	if r.sum.Snapshots == 0 {
 		r.sum.ModularityMin, r.sum.ModularityMax = q, q
+		r.sum.QualityMin, r.sum.QualityMax = h, h
 	}
 	r.sum.ModularityMin, r.sum.ModularityMax = min(r.sum.ModularityMin, q), max(r.sum.ModularityMax, q)
+	r.sum.QualityMin, r.sum.QualityMax = min(r.sum.QualityMin, h), max(r.sum.QualityMax, h)
 	r.sum.Snapshots++
 	r.sum.Nodes, r.sum.Edges, r.sum.Communities = s.Nodes, s.Edges, len(s.Communities)
 	return nil
@@ -455,6 +461,7 @@ func (r *replayer) summarise(asJSON bool) error {
 	if asJSON {
 		if s.Snapshots == 0 {
 			s.ModularityMin, s.ModularityMax = 0, 0 // JSON has no NaN
+			s.QualityMin, s.QualityMax = 0, 0
 		}
 		return json.NewEncoder(r.e.stderr).Encode(s)
 	}
@@ -472,8 +479,13 @@ func (r *replayer) summarise(asJSON bool) error {
 		fmt.Fprintf(w, ", window %s", s.Window)
 	}
 	fmt.Fprintln(w)
-	fmt.Fprintf(w, "%d snapshots, modularity %.6f .. %.6f; last: %d nodes, %d edges, %d communities\n",
-		s.Snapshots, s.ModularityMin, s.ModularityMax, s.Nodes, s.Edges, s.Communities)
+	if s.Objective == tracker.ObjectiveCPM.String() {
+		fmt.Fprintf(w, "%d snapshots, CPM value %.6g .. %.6g (modularity %.6f .. %.6f, for comparison); last: %d nodes, %d edges, %d communities\n",
+			s.Snapshots, s.QualityMin, s.QualityMax, s.ModularityMin, s.ModularityMax, s.Nodes, s.Edges, s.Communities)
+	} else {
+		fmt.Fprintf(w, "%d snapshots, modularity %.6f .. %.6f; last: %d nodes, %d edges, %d communities\n",
+			s.Snapshots, s.ModularityMin, s.ModularityMax, s.Nodes, s.Edges, s.Communities)
+	}
 	fmt.Fprintf(w, "%d events: %s\n", s.Lifecycle, s.ByType.String())
 	return nil
 }
