@@ -40,8 +40,13 @@
 //	           nodes | edges | communities | crc
 //	community: version | id | size | internal | degree | density |
 //	           conductance | first member | size-1 gaps to the previous
-//	           member (each > 0) | crc
+//	           member (each > 0) | [hubs] | crc
+//	hubs:      count (> 0) | first hub | count-1 gaps (each > 0)
 //
+// The hubs (the nodes a hub policy keeps out of the optimisation that are
+// adjacent to a member; package tracker/hub) were added later: a community
+// without hubs has none of those bytes, so records written before decode
+// as communities without hubs, and every community has one encoding.
 // [Load] checks the version, checksum and every length, that the ids in keys
 // and values agree and that the community and node counts match the header;
 // any failure gives an error for which [IsCorrupt] holds. A missing snapshot

@@ -117,13 +117,17 @@ type jsonCommunity struct {
 	Expected    float64  `json:"expected"`
 	Z           float64  `json:"z"`
 	Members     []string `json:"members"`
+	// Hubs are the hubs adjacent to a member (external ids), absent
+	// without a hub policy.
+	Hubs []string `json:"hubs,omitempty"`
 }
 
 // WriteJSONL writes s as JSON lines: one object with "kind":"header" (schema
 // [JSONSchema], the header fields, times in RFC 3339 and the note), then one
 // object with "kind":"community" per community in id order with its
-// statistics and "members" (external ids from name, nil: decimal internal
-// ids, in internal id order).
+// statistics, "members" (external ids from name, nil: decimal internal
+// ids, in internal id order) and, when it has any, "hubs" (Community.Hubs,
+// named the same way).
 func WriteJSONL(w io.Writer, s *Snapshot, name func(uint32) string) error {
 	bw := bufio.NewWriter(w)
 	enc := json.NewEncoder(bw)
@@ -136,10 +140,14 @@ func WriteJSONL(w io.Writer, s *Snapshot, name func(uint32) string) error {
 		for _, v := range c.Members {
 			members = append(members, nf.name(v))
 		}
+		var hubs []string
+		for _, v := range c.Hubs {
+			hubs = append(hubs, nf.name(v))
+		}
 		exp, z := s.InternalZ(c)
 		err = enc.Encode(jsonCommunity{
 			Kind: "community", Community: c.ID, Size: c.Size, Internal: c.Internal, Degree: c.Degree,
-			Density: c.Density, Conductance: c.Conductance, Expected: exp, Z: z, Members: members,
+			Density: c.Density, Conductance: c.Conductance, Expected: exp, Z: z, Members: members, Hubs: hubs,
 		})
 	}
 	if err == nil {

@@ -74,6 +74,11 @@ type Community struct {
 	Conductance float64
 	// Members are the dense internal node ids, strictly increasing.
 	Members []uint32
+	// Hubs are the hubs adjacent to a member in the full graph, strictly
+	// increasing dense ids (package tracker/hub: nodes kept out of the
+	// optimisation, so never members); nil without a hub policy. Freeze
+	// leaves it nil; the timeline fills it in.
+	Hubs []uint32
 }
 
 // Snapshot is a frozen partition. Communities is sorted by ID; the embedded

@@ -119,6 +119,11 @@ func check(s *Snapshot) error {
 				return fmt.Errorf("%w: community %d: members not increasing", ErrInvalid, c.ID)
 			}
 		}
+		for j := 1; j < len(c.Hubs); j++ {
+			if c.Hubs[j] <= c.Hubs[j-1] {
+				return fmt.Errorf("%w: community %d: hubs not increasing", ErrInvalid, c.ID)
+			}
+		}
 		nodes += c.Size
 	}
 	if nodes != s.Nodes {
@@ -349,7 +354,28 @@ func encodeCommunity(dst []byte, c *Community) []byte {
 		}
 		prev = m
 	}
+	// Added later, at the end and only when there are hubs, so that older
+	// records still decode (as no hubs) and every record has one encoding.
+	if len(c.Hubs) > 0 {
+		dst = binary.AppendUvarint(dst, uint64(len(c.Hubs)))
+		dst = appendGaps(dst, c.Hubs)
+	}
 	return binary.BigEndian.AppendUint32(dst, crcOf(dst))
+}
+
+// appendGaps appends ids (strictly increasing) as the first one and then
+// the gaps to the previous one.
+func appendGaps(dst []byte, ids []uint32) []byte {
+	prev := uint32(0)
+	for i, m := range ids {
+		if i == 0 {
+			dst = binary.AppendUvarint(dst, uint64(m))
+		} else {
+			dst = binary.AppendUvarint(dst, uint64(m-prev))
+		}
+		prev = m
+	}
+	return dst
 }
 
 // body checks the version byte and the checksum and returns the bytes
@@ -548,8 +574,45 @@ func decodeCommunityBody(b []byte, slab []uint32) (Community, []uint32, error) {
 		slab = append(slab, uint32(x))
 		prev = x
 	}
+	if d.err == nil && len(d.buf) > 0 {
+		c.Hubs = d.gaps("hub")
+	}
 	if err := d.done(); err != nil {
 		return Community{}, slab, err
 	}
 	return c, slab, nil
+}
+
+// gaps reads a count (at least 1, at most one per remaining byte) and as
+// many strictly increasing ids written by appendGaps.
+func (d *decoder) gaps(what string) []uint32 {
+	n := d.count(what + " count")
+	if d.err == nil && (n == 0 || n > len(d.buf)) {
+		d.fail(fmt.Sprintf("%d %ss with %d bytes", n, what, len(d.buf)))
+	}
+	if d.err != nil {
+		return nil
+	}
+	out := make([]uint32, 0, n)
+	prev := uint64(0)
+	for i := 0; i < n; i++ {
+		x := d.uvarint(what)
+		if d.err != nil {
+			return nil
+		}
+		if i > 0 {
+			if x == 0 {
+				d.fail(what + "s not increasing")
+				return nil
+			}
+			x += prev
+		}
+		if x > math.MaxUint32 || x < prev {
+			d.fail(what + " id out of range")
+			return nil
+		}
+		out = append(out, uint32(x))
+		prev = x
+	}
+	return out
 }

@@ -58,6 +58,8 @@ type daemonOptions struct {
 	snapshotOnExit bool
 	topts          tracker.Options
 	objectiveSet   bool // --objective or --resolution given (else the store's)
+	hubs           *hubPolicy
+	hubsSet        bool // a hub flag given (else the store's policy)
 	eo             events.Options
 	rebuild        string
 	keyFile        string
@@ -312,6 +314,9 @@ func (d *daemon) openStore() error {
 	if err := d.settleObjective(); err != nil {
 		return err
 	}
+	if err := d.settleHubs(); err != nil {
+		return err
+	}
 	d.log.Info("store: open", "dir", dir, "graph", o.graph, "window", windowText(o.window), "pseudonymized", d.pseudo != nil,
 		"applied_seq", s.State().Applied, "events_applied", s.State().EventsApplied)
 	return nil
@@ -477,13 +482,17 @@ func (d *daemon) restore() error {
 	}
 	st := r.State
 	t1 := time.Now()
-	tr, method, err := timeline.Rebuild(r.Graph(), &d.o.topts, prev, st.NextCommunity, d.o.rebuild)
+	hubs, g, err := d.hubFilter(r)
+	if err != nil {
+		return err
+	}
+	tr, method, err := timeline.Rebuild(g, &d.o.topts, prev, st.NextCommunity, d.o.rebuild)
 	if err != nil {
 		return err
 	}
 	cfg := timeline.Config{
 		Graph: d.o.graph, Schedule: d.o.schedule, ApplyEvery: d.o.applyEvery, Match: d.o.eo,
-		Expire: d.feed.Window().AppendExpire, Async: true,
+		Expire: d.feed.Window().AppendExpire, Async: true, Hubs: hubs,
 		Seq: func() uint64 { return d.lastSeq },
 	}
 	tst := timeline.State{Events: st.EventsApplied, Watermark: st.Watermark, Mark: st.SnapshotMark, MarkEvents: st.SnapshotEvents}
@@ -491,7 +500,7 @@ func (d *daemon) restore() error {
 	if d.tl, err = timeline.New(cfg, tr, prev, hist, tst, timeline.SinkFunc(d.writeSnapshot)); err != nil {
 		return usageError{err}
 	}
-	g := tr.Graph()
+	g = tr.Graph()
 	d.restored = r
 	d.log.Info("tracker: rebuilt", "method", method, "nodes", g.Nodes(), "edges", g.Edges(), "communities", tr.NumCommunities(),
 		"modularity", finite(tr.Modularity()), "read", tRead.Round(time.Millisecond), "build", time.Since(t1).Round(time.Millisecond))
@@ -652,8 +661,14 @@ func (d *daemon) writeSnapshot(s *snapshot.Snapshot, evs []events.Event, h *even
 	hd := s.Header
 	d.lastSnap.Store(&hd)
 	d.snapshots.Add(1)
-	d.log.Info("snapshot", "id", s.ID, "time", snapshot.RFC3339(s.Time), "seq", s.Seq, "nodes", s.Nodes, "edges", s.Edges,
-		"communities", len(s.Communities), "modularity", s.Modularity, "events", len(evs))
+	attrs := []any{"id", s.ID, "time", snapshot.RFC3339(s.Time), "seq", s.Seq, "nodes", s.Nodes, "edges", s.Edges,
+		"communities", len(s.Communities), "modularity", s.Modularity, "events", len(evs)}
+	if d.o.hubs != nil && !d.o.hubs.off() {
+		// Counted by the timeline just before this sink was called.
+		c := d.tl.Stats().Hubs
+		attrs = append(attrs, "hubs", c.Hubs, "hub_edges_excluded", c.Edges, "hub_changes_dropped", c.Dropped)
+	}
+	d.log.Info("snapshot", attrs...)
 	return nil
 }
 

@@ -50,6 +50,9 @@ type detectResult struct {
 	// RecommendedBy (see recommend); absent if no point qualifies.
 	RecommendedResolution *float64 `json:"recommended_resolution,omitempty"`
 	RecommendedBy         string   `json:"recommended_by,omitempty"`
+	// Hubs is what --hub-degree, --hub-percentile or --hubs kept out of the
+	// optimisation (hubs.go); the other figures are of the graph without.
+	Hubs *hubReport `json:"hubs,omitempty"`
 }
 
 // communityReport is one community of the best run: its internal weight
@@ -73,6 +76,8 @@ type communityReport struct {
 	P           *float64 `json:"p,omitempty"`
 	Pool        int      `json:"pool,omitempty"`
 	Significant *bool    `json:"significant,omitempty"`
+	// Hubs are the hubs adjacent to a member (names; with a hub policy).
+	Hubs []string `json:"hubs,omitempty"`
 }
 
 // nullResult compares the observed quality with the quality the same
@@ -143,6 +148,7 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 	unstableBelow := fs.Float64("unstable-below", 0.9, "node stability threshold, in (0, 1] (chosen default)")
 	nodeWeights := fs.String("node-weights", "", "read node<TAB>weight lines (# comments) from this file: a node's size in the CPM objective (default 1)")
 	lo := addInputFlags(fs)
+	hf := addHubFlags(fs)
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
@@ -186,6 +192,10 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	g := tracker.NewGraph(loaded.Dict.Len(), loaded.Edges)
+	hubs, err := hf.exclude(g, loaded.Dict) // hubs.go: out of g, before anything reads it
+	if err != nil {
+		return err
+	}
 	if *nodeWeights != "" {
 		if err := readNodeWeights(*nodeWeights, loaded.Dict, g); err != nil {
 			return err
@@ -239,6 +249,7 @@ func runDetect(ctx context.Context, e *env, args []string) error {
 			Community: c.ID, Size: c.Size, Internal: c.Internal, Degree: c.Degree, Expected: exp, Z: z,
 		})
 	}
+	hubs.report(&res, p.Membership, loaded.Dict)
 	res.Sizes = slices.Clone(sizes)
 	slices.SortFunc(res.Sizes, func(a, b int) int { return b - a })
 	var nodeStab []float64
@@ -617,6 +628,7 @@ func qualityName(obj string) (long, short string) {
 func printDetect(w io.Writer, r *detectResult, unstableOut string) {
 	long, short := qualityName(r.Objective)
 	fmt.Fprintf(w, "%s: %d nodes, %d edges, total weight %g\n", r.File, r.Nodes, r.Edges, r.TotalWeight)
+	printHubs(w, r.Hubs)
 	how := fmt.Sprintf("seed %d", r.Seed)
 	if len(r.Runs) > 1 {
 		how = fmt.Sprintf("seed %d, best of %d", r.Seed, len(r.Runs))

@@ -129,6 +129,9 @@ type diffSummary struct {
 	NodesRemoved int         `json:"nodes_removed"`
 	Events       int         `json:"events"`
 	ByType       eventCounts `json:"by_type"`
+	// Hubs is what the hub policy kept out of the tracker, in NEW
+	// (hubs.go); the sides' figures are of the graphs without.
+	Hubs *hubReport `json:"hubs,omitempty"`
 }
 
 func runDiff(ctx context.Context, e *env, args []string) error {
@@ -141,12 +144,17 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	newTime := fs.String("new-time", "", "time of NEW in the events (RFC 3339 or Unix ms; default the Unix epoch)")
 	asJSON := fs.Bool("json", false, "print the summary on stderr as one JSON object")
 	lo := addInputFlags(fs)
+	hf := addHubFlags(fs)
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
 	}
 	if len(pos) != 2 {
 		return usagef("want two files OLD and NEW, got %d arguments", len(pos))
+	}
+	hp, err := hf.policy()
+	if err != nil {
+		return err
 	}
 	if pos[0] == "-" && pos[1] == "-" {
 		return usagef("only one of OLD and NEW can be - (stdin)")
@@ -208,8 +216,24 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 		return err
 	}
 	gOld := tracker.NewGraph(nOld, old.Edges)
-	pOld := settle(gOld, &topts, tracker.Detect(gOld, &topts))
-	trOld, err := tracker.NewWithPartition(gOld, &topts, pOld.Membership, 1)
+	// With a hub policy the tracker starts from OLD without its hubs; the
+	// filter keeps gOld, the full graph, and passes on the changes.
+	hubs, gT, err := hubGraph(hp, gOld, func(name string) (uint32, bool) {
+		if id, ok := old.Dict.Lookup(name); ok {
+			return id, true
+		}
+		id, ok := cur.Dict.Lookup(name)
+		if !ok {
+			return 0, false
+		}
+		return uid[id], true
+	})
+	if err != nil {
+		stop()
+		return err
+	}
+	pOld := settle(gT, &topts, tracker.Detect(gT, &topts))
+	trOld, err := tracker.NewWithPartition(gT, &topts, pOld.Membership, 1)
 	if err != nil {
 		stop()
 		return err
@@ -219,7 +243,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	// are those the daemon would report for that change.
 	var snaps []*snapshot.Snapshot
 	var evs []events.Event
-	tl, err := timeline.New(timeline.Config{Graph: name, Match: eo}, trOld, nil, nil, timeline.NewState(),
+	tl, err := timeline.New(timeline.Config{Graph: name, Match: eo, Hubs: hubs}, trOld, nil, nil, timeline.NewState(),
 		timeline.SinkFunc(func(s *snapshot.Snapshot, e []events.Event, _ *events.History) error {
 			snaps = append(snaps, s)
 			evs = e
@@ -263,6 +287,9 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	for i := range evs {
 		sum.ByType.add(evs[i].Type)
 	}
+	if hubs != nil {
+		sum.Hubs = newHubReport(hp, tl.Stats().Hubs, hubs.Threshold())
+	}
 	if err := writeEvents(e, *eventsOut, evs); err != nil {
 		return err
 	}
@@ -275,6 +302,7 @@ func runDiff(ctx context.Context, e *env, args []string) error {
 	}
 	fmt.Fprintf(e.stderr, "nodes: %d in both, %d only in NEW, %d only in OLD\n", kept, len(only), nOld-kept)
 	fmt.Fprintf(e.stderr, "%d events: %s\n", sum.Events, sum.ByType.String())
+	printHubs(e.stderr, sum.Hubs)
 	return nil
 }
 

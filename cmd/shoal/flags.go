@@ -3,6 +3,7 @@ package main
 import (
 	"flag"
 	"fmt"
+	"math"
 	"time"
 
 	"shoal/events"
@@ -129,4 +130,57 @@ func (f *timelineFlags) schedule() (timeline.Schedule, error) {
 		return s, usagef("--history %v: the lineage must be kept for some time (default %v)", *f.history, defaultHistory)
 	}
 	return s, nil
+}
+
+// hubFlags are the hub policy (detect, replay, diff, run): nodes so widely
+// connected that they would glue unrelated groups together stay in the
+// store and the answers (each community lists the hubs its members touch)
+// but out of the optimisation (package tracker/hub). Off by default: a
+// threshold right for one graph is wrong for another (karate's instructor,
+// with 16 of its 78 edges, is the centre of one of its two factions), so
+// hubs are asked for, never assumed.
+type hubFlags struct {
+	degree     *int
+	percentile *float64
+	file       *string
+	read       *hubPolicy // the file is read once
+}
+
+func addHubFlags(fs *flag.FlagSet) *hubFlags {
+	return &hubFlags{
+		degree:     fs.Int("hub-degree", 0, "keep nodes with more than N distinct neighbours out of the optimisation, as hubs listed by the communities they touch (0: no degree rule; off by default, as a threshold right for one graph is wrong for another)"),
+		percentile: fs.Float64("hub-percentile", 0, "keep nodes with more distinct neighbours than the P-th percentile (nearest rank over the nodes with a neighbour; P in (0, 100)) out of the optimisation (0: no percentile rule)"),
+		file:       fs.String("hubs", "", "keep the nodes named in FILE (one per line; blank lines and # comments skipped) out of the optimisation; detect, replay and diff refuse a name their input lacks, the daemon makes it a hub when it appears"),
+	}
+}
+
+// given reports whether any hub flag is on the command line.
+func (f *hubFlags) given(fs *flag.FlagSet) bool {
+	set := false
+	fs.Visit(func(fl *flag.Flag) {
+		set = set || fl.Name == "hub-degree" || fl.Name == "hub-percentile" || fl.Name == "hubs"
+	})
+	return set
+}
+
+// policy checks the flags and reads the --hubs file.
+func (f *hubFlags) policy() (*hubPolicy, error) {
+	if f.read != nil {
+		return f.read, nil
+	}
+	p := &hubPolicy{degree: *f.degree, percentile: *f.percentile, from: *f.file}
+	switch {
+	case p.degree < 0:
+		return nil, usagef("--hub-degree %d: must be 0 (no degree rule) or more", p.degree)
+	case math.IsNaN(p.percentile) || p.percentile < 0 || p.percentile >= 100:
+		return nil, usagef("--hub-percentile %v: must be 0 (no percentile rule) or in (0, 100)", p.percentile)
+	}
+	if *f.file != "" {
+		var err error
+		if p.names, err = readHubList(*f.file); err != nil {
+			return nil, err
+		}
+	}
+	f.read = p
+	return p, nil
 }

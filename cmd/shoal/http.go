@@ -50,6 +50,10 @@ type statsResponse struct {
 	StoreBytes     uint64  `json:"store_bytes"`
 	UptimeSeconds  float64 `json:"uptime_seconds"`
 	OutboxError    string  `json:"outbox_error,omitempty"`
+	// Hubs is what the hub policy keeps out of the tracker, as of the last
+	// snapshot (absent without a policy); the graph figures above are of
+	// the graph without them.
+	Hubs *hubReport `json:"hubs,omitempty"`
 }
 
 func (d *daemon) stats() statsResponse {
@@ -73,6 +77,9 @@ func (d *daemon) stats() statsResponse {
 	}
 	if e := d.outboxErr.Load(); e != nil {
 		r.OutboxError = *e
+	}
+	if !d.o.hubs.off() {
+		r.Hubs = newHubReport(d.o.hubs, d.tl.Stats().Hubs, -1)
 	}
 	d.tl.Read(func(tr *tracker.Tracker) {
 		g := tr.Graph()

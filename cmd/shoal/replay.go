@@ -18,6 +18,7 @@ import (
 	"shoal/ingest"
 	"shoal/snapshot"
 	"shoal/tracker"
+	"shoal/tracker/hub"
 )
 
 // shoal replay FILE
@@ -123,6 +124,9 @@ type replaySummary struct {
 	Nodes         int         `json:"nodes"`
 	Edges         int         `json:"edges"`
 	Communities   int         `json:"communities"`
+	// Hubs is what the hub policy kept out of the tracker at the last
+	// snapshot (hubs.go); Nodes and Edges are of the graph without.
+	Hubs *hubReport `json:"hubs,omitempty"`
 }
 
 const noID = ^uint32(0)
@@ -138,12 +142,17 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 	graph := fs.String("graph", "", "graph name in events and snapshots (default: the file name)")
 	asJSON := fs.Bool("json", false, "print the final summary on stderr as one JSON object")
 	lo := addInputFlags(fs)
+	hf := addHubFlags(fs)
 	pos, err := parse(fs, args)
 	if err != nil {
 		return err
 	}
 	if len(pos) != 1 {
 		return usagef("want exactly one FILE (or - for stdin), got %d arguments", len(pos))
+	}
+	hp, err := hf.policy()
+	if err != nil {
+		return err
 	}
 	topts, err := trf.options()
 	if err != nil {
@@ -180,8 +189,11 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 		fmt.Fprintf(e.stderr, "shoal replay: %s is not in time order: stable-sorted its %d events by time in memory\n", lopts.Name, len(in.evs))
 	}
 
-	r := &replayer{e: e, in: in, graph: name, win: ingest.NewWindow(*tf.window), minSize: *mf.minSize}
+	r := &replayer{e: e, in: in, graph: name, win: ingest.NewWindow(*tf.window), minSize: *mf.minSize, hp: hp}
 	eo, _ := mf.options(r.name)
+	if r.hubs, err = r.hubFilter(hp); err != nil {
+		return err
+	}
 	tr, err := tracker.New(&topts)
 	if err != nil {
 		return usageError{err}
@@ -191,7 +203,7 @@ func runReplay(ctx context.Context, e *env, args []string) error {
 		return usageError{err}
 	}
 	r.tl, err = timeline.New(timeline.Config{
-		Graph: name, Schedule: sched, ApplyEvery: *tf.applyEvery, Match: eo, Expire: r.win.AppendExpire,
+		Graph: name, Schedule: sched, ApplyEvery: *tf.applyEvery, Match: eo, Expire: r.win.AppendExpire, Hubs: r.hubs,
 	}, tr, nil, hist, timeline.NewState(), timeline.SinkFunc(r.snapshot))
 	if err != nil {
 		return usageError{err}
@@ -334,6 +346,8 @@ type replayer struct {
 	win     *ingest.Window
 	tl      *timeline.Timeline
 	minSize int
+	hp      *hubPolicy
+	hubs    *hub.Filter // nil without a hub policy
 
 	ew io.Writer     // events
 	sw *json.Encoder // snapshot headers, or nil
@@ -422,6 +436,9 @@ func (r *replayer) run(ctx context.Context) error {
 	}
 	st := r.tl.Stats()
 	r.sum.Batches, r.sum.FullPasses = st.Batches, st.FullPasses
+	if r.hubs != nil {
+		r.sum.Hubs = newHubReport(r.hp, st.Hubs, r.hubs.Threshold())
+	}
 	return nil
 }
 
@@ -487,5 +504,6 @@ func (r *replayer) summarise(asJSON bool) error {
 			s.Snapshots, s.ModularityMin, s.ModularityMax, s.Nodes, s.Edges, s.Communities)
 	}
 	fmt.Fprintf(w, "%d events: %s\n", s.Lifecycle, s.ByType.String())
+	printHubs(w, s.Hubs)
 	return nil
 }

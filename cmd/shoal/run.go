@@ -35,6 +35,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	idleApply := fs.Duration("idle-apply", 0, "apply the pending events when nothing came for this long (default 1s; also at once when nothing is pending)")
 	trf := addTrackerFlags(fs, true)
 	mf := addMatchFlags(fs)
+	hf := addHubFlags(fs)
 	rebuild := fs.String("rebuild", "auto", "how the tracker is rebuilt at start: snapshot (the last snapshot's partition on the stored edges), static (from scratch), auto (snapshot when there is one)")
 	keyFile := fs.String("pseudonymize-key-file", "", "replace node ids at ingest by HMAC-SHA-256 pseudonyms under the key in FILE (at least 16 bytes; fixed when the store is created)")
 	readyFile := fs.String("ready-file", "", "write {\"http\":..,\"nats\":..,\"pid\":..} to FILE once consuming")
@@ -88,6 +89,10 @@ func runRun(ctx context.Context, e *env, args []string) error {
 	if err != nil {
 		return err
 	}
+	hp, err := hf.policy()
+	if err != nil {
+		return err
+	}
 	o := &daemonOptions{
 		data: *data, graph: *graph, window: *tf.window, windowSet: set["window"],
 		natsURL: *nf.url, natsListen: *natsListen, nf: nf,
@@ -98,7 +103,7 @@ func runRun(ctx context.Context, e *env, args []string) error {
 		},
 		httpAddr: *httpAddr, schedule: sched, scheduleSet: set[tf.names[0]] || set[tf.names[1]],
 		applyEvery: *tf.applyEvery, history: *tf.history, snapshotKeep: *keep, snapshotOnExit: *onExit,
-		topts: topts, objectiveSet: set["objective"] || set["resolution"], eo: eo, rebuild: *rebuild, keyFile: *keyFile, readyFile: *readyFile,
+		topts: topts, objectiveSet: set["objective"] || set["resolution"], eo: eo, hubs: hp, hubsSet: hf.given(fs), rebuild: *rebuild, keyFile: *keyFile, readyFile: *readyFile,
 	}
 	if strings.EqualFold(o.httpAddr, "off") {
 		o.httpAddr = ""

@@ -33,6 +33,11 @@ const (
 // re-optimised as a batch would have (tracker.Revisit). next is the
 // stored next community id, so that no id is handed out twice. Both paths
 // are deterministic.
+//
+// With a hub policy, g is the hub filter's Tracked graph (hub.NewFilter
+// over the stored graph): the hubs and their edges are not in it, so they
+// stay out of the rebuilt tracker as they were out of the one that froze
+// prev, and Config.Hubs is that filter.
 func Rebuild(g *tracker.Graph, o *tracker.Options, prev *snapshot.Snapshot, next uint64, method string) (*tracker.Tracker, string, error) {
 	switch method {
 	case RebuildAuto:

@@ -11,6 +11,7 @@ import (
 	"shoal/events"
 	"shoal/snapshot"
 	"shoal/tracker"
+	"shoal/tracker/hub"
 )
 
 // ErrInvalid is returned (wrapped) for a configuration that cannot work.
@@ -99,6 +100,16 @@ type Config struct {
 	// stream sequence of the last event in it). Default: the number of
 	// events added (State.Events).
 	Seq func() uint64
+	// Hubs, if set, keeps hubs out of the tracker (package tracker/hub):
+	// every change, the window's expiries included, goes through it before
+	// it joins a batch; its percentile threshold is re-evaluated before
+	// every snapshot; and every snapshot's communities list the hubs
+	// adjacent to their members (snapshot.Community.Hubs). The tracker must
+	// hold the filter's Tracked graph when the timeline is made (an empty
+	// tracker for an empty filter; Rebuild on Tracked after a restart). The
+	// timeline's owner goroutine is the only one to use it from then on.
+	// With Check, hub.Filter.Verify runs before every snapshot.
+	Hubs *hub.Filter
 }
 
 // Sink receives every snapshot with the events from the previous one
@@ -141,6 +152,9 @@ type Stats struct {
 	Batches, FullPasses, Snapshots int
 	// Pending is the number of changes waiting for the next batch.
 	Pending int
+	// Hubs is what Config.Hubs kept out of the tracker, as of the last
+	// snapshot (zero without a hub filter).
+	Hubs hub.Counts
 }
 
 // Timeline owns the cycle events -> tracker batches -> snapshot at each
@@ -176,6 +190,8 @@ type Timeline struct {
 	snaps   atomic.Int64 // snapshots taken
 	pend    atomic.Int64 // changes in the batch being built
 	q       *queue       // nil unless Async
+	exp     []tracker.Change
+	hubs    atomic.Pointer[hub.Counts] // as of the last snapshot
 }
 
 // New returns a timeline over tr (a new tracker, or one rebuilt by
@@ -231,7 +247,9 @@ func (t *Timeline) At(ts int64) error {
 	if every := t.cfg.Schedule.Every; every > 0 && ts > t.st.Mark && ts-t.st.Mark >= every.Milliseconds() {
 		T := t.st.Mark + every.Milliseconds()
 		if t.cfg.Expire != nil {
-			t.batch = t.cfg.Expire(t.batch, T)
+			if err := t.expire(T); err != nil {
+				return err
+			}
 		}
 		t.st.Watermark = max(t.st.Watermark, T)
 		if err := t.take(T); err != nil {
@@ -247,7 +265,14 @@ func (t *Timeline) At(ts int64) error {
 // counts) and applies the batch when the event count reaches a multiple of
 // ApplyEvery, or takes the snapshot EveryEvents asks for.
 func (t *Timeline) Add(chs []tracker.Change) error {
-	t.batch = append(t.batch, chs...)
+	if t.cfg.Hubs == nil {
+		t.batch = append(t.batch, chs...)
+	} else {
+		var err error
+		if t.batch, err = t.cfg.Hubs.Apply(t.batch, chs); err != nil {
+			return fmt.Errorf("timeline: event %d: %w", t.st.Events+1, err)
+		}
+	}
 	t.pend.Store(int64(len(t.batch)))
 	t.st.Events++
 	if n := t.cfg.Schedule.EveryEvents; n > 0 && t.st.Events-t.st.MarkEvents >= uint64(n) {
@@ -255,6 +280,21 @@ func (t *Timeline) Add(chs []tracker.Change) error {
 	}
 	if t.st.Events%uint64(t.cfg.ApplyEvery) == 0 {
 		return t.flush()
+	}
+	return nil
+}
+
+// expire adds the window's expiries up to T to the batch, through the hub
+// filter if there is one.
+func (t *Timeline) expire(T int64) error {
+	if t.cfg.Hubs == nil {
+		t.batch = t.cfg.Expire(t.batch, T)
+		return nil
+	}
+	t.exp = t.cfg.Expire(t.exp[:0], T)
+	var err error
+	if t.batch, err = t.cfg.Hubs.Apply(t.batch, t.exp); err != nil {
+		return fmt.Errorf("timeline: expiry at %d: %w", T, err)
 	}
 	return nil
 }
@@ -336,6 +376,9 @@ func (t *Timeline) NextID() uint64 { return t.nextID.Load() }
 func (t *Timeline) Stats() Stats {
 	s := Stats{Batches: int(t.batches.Load()), FullPasses: int(t.full.Load()), Snapshots: int(t.snaps.Load())}
 	s.Pending = int(t.pend.Load())
+	if c := t.hubs.Load(); c != nil {
+		s.Hubs = *c
+	}
 	if t.q != nil {
 		s.Pending += t.q.pending()
 	}
@@ -407,6 +450,10 @@ func (t *Timeline) apply(chs []tracker.Change) error {
 // take applies the pending batch, waits for the tracker and takes the
 // snapshot at time ts.
 func (t *Timeline) take(ts int64) error {
+	if t.cfg.Hubs != nil {
+		t.batch = t.cfg.Hubs.Boundary(t.batch)
+		t.pend.Store(int64(len(t.batch)))
+	}
 	if err := t.flush(); err != nil {
 		return err
 	}
@@ -430,10 +477,23 @@ func (t *Timeline) take(ts int64) error {
 		if t.cfg.Seq != nil {
 			seq = t.cfg.Seq()
 		}
+		if f := t.cfg.Hubs; f != nil && t.cfg.Check {
+			if err = f.Verify(tr.Graph()); err != nil {
+				return
+			}
+		}
 		s, t.mem, err = Freeze(tr, snapshot.Header{ID: id, Graph: t.cfg.Graph, Seq: seq, Watermark: wm, Time: ts}, t.mem)
 	})
 	if err != nil {
 		return fmt.Errorf("timeline: snapshot %d: %w", id, err)
+	}
+	if f := t.cfg.Hubs; f != nil {
+		touched := f.Touched(t.mem)
+		for i := range s.Communities {
+			s.Communities[i].Hubs = touched[s.Communities[i].ID]
+		}
+		c := f.Counts()
+		t.hubs.Store(&c)
 	}
 	var evs []events.Event
 	if t.prev != nil {
