@@ -3,6 +3,7 @@ package tracker
 import (
 	"fmt"
 	"math"
+	"sort"
 )
 
 // Graph is a weighted undirected graph on dense uint32 node ids. Each node's
@@ -56,7 +57,7 @@ func NewGraph(n int, edges []Edge) *Graph {
 	for i := range g.alive {
 		g.alive[i] = true
 	}
-	// Pass 1: bucket directed entries by source (counting sort).
+	// Pass 1: count the directed entries of each node.
 	cnt := make([]uint32, n+1)
 	for _, e := range edges {
 		if int(e.U) >= n || int(e.V) >= n {
@@ -71,48 +72,35 @@ func NewGraph(n int, edges []Edge) *Graph {
 		cnt[e.U+1]++
 		cnt[e.V+1]++
 	}
-	// fin holds the offsets of the final runs: tight, as a static run reads
-	// the slab fastest without gaps (the Tracker adds headroom, see
-	// Graph.reserve).
+	// Pass 2: place every directed entry straight into its final run (the
+	// runs are tight: a static run reads the slab fastest without gaps;
+	// the Tracker adds headroom, see Graph.reserve), then sort each run by
+	// neighbour. One slab instead of a scratch copy and a second scatter:
+	// 24 bytes per edge less at the peak of building the graph.
 	fin := make([]uint32, n+1)
 	for i := 0; i < n; i++ {
 		fin[i+1] = fin[i] + cnt[i+1]
 	}
-	for i := 1; i <= n; i++ {
-		cnt[i] += cnt[i-1]
-	}
-	total := cnt[n]
-	tmpN := make([]uint32, total)
-	tmpW := make([]float64, total)
+	g.nbr = make([]uint32, fin[n])
+	g.wt = make([]float64, fin[n])
 	pos := make([]uint32, n)
-	copy(pos, cnt[:n])
+	copy(pos, fin[:n])
 	for _, e := range edges {
 		if e.U == e.V {
 			g.self[e.U] += e.W
 			continue
 		}
 		p := pos[e.U]
-		tmpN[p], tmpW[p] = e.V, e.W
+		g.nbr[p], g.wt[p] = e.V, e.W
 		pos[e.U]++
 		p = pos[e.V]
-		tmpN[p], tmpW[p] = e.U, e.W
+		g.nbr[p], g.wt[p] = e.U, e.W
 		pos[e.V]++
 	}
-	// Pass 2: re-bucket by target, scanning sources in order, so every run
-	// comes out sorted by neighbour; the graph is symmetric so this is the
-	// same edge set.
-	copy(pos, fin[:n])
-	g.nbr = make([]uint32, fin[n])
-	g.wt = make([]float64, fin[n])
-	for s := 0; s < n; s++ {
-		for p := cnt[s]; p < cnt[s+1]; p++ {
-			t := tmpN[p]
-			q := pos[t]
-			g.nbr[q], g.wt[q] = uint32(s), tmpW[p]
-			pos[t]++
-		}
+	for i := 0; i < n; i++ {
+		sortRun(g.nbr[fin[i]:fin[i+1]], g.wt[fin[i]:fin[i+1]])
 	}
-	tmpN, tmpW = nil, nil
+	cnt = fin
 	// Pass 3: merge parallel entries in place.
 	for i := 0; i < n; i++ {
 		lo, hi := fin[i], fin[i]+(cnt[i+1]-cnt[i])
@@ -486,6 +474,37 @@ func (g *Graph) RemoveNode(i uint32, fn func(j uint32, w float64)) {
 	g.alive[i] = false
 	g.nodes--
 	g.maybeCompact()
+}
+
+// sortRun sorts one adjacency run by neighbour, stably (parallel entries
+// keep the input order, so their weights are summed in it), keeping each
+// weight with its neighbour: insertion sort for the short runs most nodes
+// have, sort.Stable beyond; neither allocates a copy of the run.
+func sortRun(nb []uint32, w []float64) {
+	if len(nb) <= 24 {
+		for i := 1; i < len(nb); i++ {
+			v, x := nb[i], w[i]
+			j := i
+			for ; j > 0 && nb[j-1] > v; j-- {
+				nb[j], w[j] = nb[j-1], w[j-1]
+			}
+			nb[j], w[j] = v, x
+		}
+		return
+	}
+	sort.Stable(runSorter{nb, w})
+}
+
+type runSorter struct {
+	nb []uint32
+	w  []float64
+}
+
+func (r runSorter) Len() int           { return len(r.nb) }
+func (r runSorter) Less(i, j int) bool { return r.nb[i] < r.nb[j] }
+func (r runSorter) Swap(i, j int) {
+	r.nb[i], r.nb[j] = r.nb[j], r.nb[i]
+	r.w[i], r.w[j] = r.w[j], r.w[i]
 }
 
 // recompute returns k and 2m summed from scratch, for the invariant checker.
