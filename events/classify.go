@@ -512,6 +512,9 @@ func diff(dx, dy, x, y []uint32, limit int) ([]uint32, []uint32, int, int) {
 
 func (m *matcher) side(sn *snapshot.Snapshot, c *snapshot.Community) Side {
 	s := side(sn, c)
+	for _, h := range c.Hubs {
+		s.Hubs = append(s.Hubs, m.name(h))
+	}
 	if m.o.Members {
 		s.Members = make([]string, len(c.Members))
 		for k, v := range c.Members {

@@ -5,6 +5,7 @@ import (
 	"errors"
 	"math"
 	"reflect"
+	"slices"
 	"strings"
 	"testing"
 
@@ -172,6 +173,10 @@ func TestEventRecord(t *testing.T) {
 	edges := cat(clique(span_(0, 5)...), clique(6, 7, 8, 9), [][2]int{{5, 6}})
 	parts := map[uint64][]int{1: span_(0, 5), 2: {6, 7, 8, 9}}
 	a, b := snap(t, 4, edges, parts), snap(t, 9, edges, parts)
+	// A hub the later snapshot's community 1 touches (the timeline's hub
+	// policy fills Hubs; node 9 stands in for one here) is named in the
+	// record's after side only.
+	b.Communities[0].Hubs = []uint32{9}
 	evs := classify(t, a, b, &Options{Members: true, Name: func(v uint32) string { return "acct-" + string(rune('a'+v)) }})
 	if len(evs) != 2 {
 		t.Fatalf("%d events, want 2", len(evs))
@@ -179,6 +184,10 @@ func TestEventRecord(t *testing.T) {
 	ev := evs[0]
 	wantSide := Side{Community: 1, Size: 6, Stats: Stats{Internal: 15, Degree: 31, Density: 1, Conductance: 1.0 / 13},
 		Members: []string{"acct-a", "acct-b", "acct-c", "acct-d", "acct-e", "acct-f"}}
+	if len(ev.Before[0].Hubs) != 0 || !slices.Equal(ev.After[0].Hubs, []string{"acct-j"}) {
+		t.Errorf("hubs before %v after %v, want none and [acct-j]", ev.Before[0].Hubs, ev.After[0].Hubs)
+	}
+	ev.After[0].Hubs = nil
 	for _, s := range [][]Side{ev.Before, ev.After} {
 		if st := s[0].Stats; math.Abs(st.Expected-961.0/88) > 1e-9 || math.Abs(st.Z-1.234501) > 1e-6 {
 			t.Errorf("expected %v, z %v; by hand 10.920455 and 1.234501", st.Expected, st.Z)

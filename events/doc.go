@@ -60,7 +60,8 @@
 //	from_snapshot  id of A;  to_snapshot: id of B
 //	from_time      RFC 3339 (UTC) of A's watermark;  to_time: of B's
 //	before, after  [{community, size, stats{internal, degree, density,
-//	               conductance}, members (only with Options.Members)}]
+//	               conductance, expected, z}, members (only with
+//	               Options.Members), hubs (only with a hub policy)}]
 //	overlaps       [{from, to, shared, jaccard}]: for merge, split and
 //	               continuations the pairs between the before and after
 //	               communities of the rules above; for birth and death the

@@ -81,6 +81,10 @@ type Side struct {
 	Stats     Stats  `json:"stats"`
 	// Members is set only with Options.Members.
 	Members []string `json:"members,omitempty"`
+	// Hubs are the hubs (the timeline's hub policy) the community's members
+	// touch: kept out of the optimisation, so in no community, but named
+	// here so that an alert shows what joins the group to the rest.
+	Hubs []string `json:"hubs,omitempty"`
 }
 
 // Stats are the frozen statistics of a community (see package snapshot).
