@@ -87,14 +87,14 @@ func detectFrom(g *Graph, o *Options, prev []uint64, next uint64) *Partition {
 	if passes == 0 {
 		passes = maxPasses
 	}
-	q := denseQuality(g, comm, c, &opts)
+	q := s.quality(g, comm, c, &opts)
 	for pass := 1; pass < passes; pass++ {
 		next, nc := s.run(l, comm, opts.MaxLevels)
 		if s.split {
 			nc = splitDisconnected(&l, next, nc)
 		}
 		moves += s.moves
-		nq := denseQuality(g, next, nc, &opts)
+		nq := s.quality(g, next, nc, &opts)
 		if !(nq > q+1e-10*max(1, math.Abs(q))) {
 			break
 		}
@@ -130,6 +130,19 @@ const (
 	maxPasses = 16
 	passGain  = 1e-4
 )
+
+// quality is the objective's value of the dense partition comm of g that
+// the solver's last run returned: from the run's own totals when it has
+// them (O(communities)), else recounted.
+func (s *solver) quality(g *Graph, comm []uint32, c int, o *Options) float64 {
+	if s.in == nil || len(s.in) != c {
+		return denseQuality(g, comm, c, o)
+	}
+	if o.Objective == ObjectiveCPM {
+		return cpmFrom(s.in, s.mass, o.Resolution)
+	}
+	return qFrom(s.in, s.tot, g.m2, o.Resolution)
+}
 
 // denseQuality is the objective's value of a dense partition of g.
 func denseQuality(g *Graph, comm []uint32, c int, o *Options) float64 {
