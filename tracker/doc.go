@@ -51,7 +51,7 @@
 // partition with the unrefined one as its start, until local moving leaves
 // every aggregate node alone. Then the whole of it runs again from the
 // partition found, as Traag et al. iterate it, while a pass raises the
-// quality by 0.01% or more ([Options.Passes]). Every returned community is
+// quality by 0.1% or more ([Options.Passes]). Every returned community is
 // connected. Hot
 // loops run on flat slices (a CSR-like slab, a dense accumulator indexed
 // by community with a list of touched entries).
