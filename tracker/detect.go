@@ -152,15 +152,19 @@ func denseQuality(g *Graph, comm []uint32, c int, o *Options) float64 {
 	if o.Objective != ObjectiveCPM {
 		return qFrom(in, tot, g.m2, o.Resolution)
 	}
-	for i := range tot {
-		tot[i] = 0
-	}
+	return cpmFrom(in, communityWeights(g, comm, c), o.Resolution)
+}
+
+// communityWeights returns the summed node weight of each community of a
+// dense partition.
+func communityWeights(g *Graph, comm []uint32, c int) []float64 {
+	w := make([]float64, c)
 	for i, ci := range comm {
 		if g.alive[i] {
-			tot[ci] += g.NodeWeight(uint32(i))
+			w[ci] += g.NodeWeight(uint32(i))
 		}
 	}
-	return cpmFrom(in, tot, o.Resolution)
+	return w
 }
 
 // finish turns a dense partition into a Partition: stable ids, statistics
@@ -169,18 +173,15 @@ func denseQuality(g *Graph, comm []uint32, c int, o *Options) float64 {
 // has (mass: the summed node weights for CPM, degrees for modularity).
 func finish(g *Graph, comm []uint32, c int, prev []uint64, next *uint64, o *Options, in, tot, mass []float64) *Partition {
 	ids := assignIDs(comm, c, nil, prev, g.k, next)
-	if in == nil || (o.Objective == ObjectiveCPM && mass == nil) {
+	if in == nil {
 		in, tot = communityTotals(g, comm, c)
 		mass = nil
 	}
+	// For CPM the optimiser's masses are the node weights; for modularity
+	// they are the degrees, and the weights are summed here.
 	weight := mass
 	if o.Objective != ObjectiveCPM || weight == nil {
-		weight = make([]float64, c)
-		for i, ci := range comm {
-			if g.alive[i] {
-				weight[ci] += g.NodeWeight(uint32(i))
-			}
-		}
+		weight = communityWeights(g, comm, c)
 	}
 	size := make([]int, c)
 	for i := range comm {

@@ -100,10 +100,9 @@ func NewGraph(n int, edges []Edge) *Graph {
 	for i := 0; i < n; i++ {
 		sortRun(g.nbr[fin[i]:fin[i+1]], g.wt[fin[i]:fin[i+1]])
 	}
-	cnt = fin
 	// Pass 3: merge parallel entries in place.
 	for i := 0; i < n; i++ {
-		lo, hi := fin[i], fin[i]+(cnt[i+1]-cnt[i])
+		lo, hi := fin[i], fin[i+1]
 		out := lo
 		for p := lo; p < hi; p++ {
 			if out > lo && g.nbr[out-1] == g.nbr[p] {

@@ -57,17 +57,7 @@ func (t *Tracker) groupPass() {
 	})
 	sub := NewGraph(len(nodes), edges)
 	s := newSolver(&t.o, t.o.Seed^uint64(t.batches))
-	l := sub.view(t.o.Objective)
-	l.k = make([]float64, len(nodes))
-	l.a = l.k
-	if t.o.Objective == ObjectiveCPM {
-		l.a = make([]float64, len(nodes))
-	}
-	for li, u := range nodes {
-		l.k[li] = g.k[u]
-		l.a[li] = t.mass(u)
-	}
-	l.m2 = g.m2
+	l := t.subLevel(sub, nodes)
 	comm, c := s.run(l, nil, 8)
 	groups := make([][]uint32, c)
 	for li, ci := range comm {
@@ -187,6 +177,24 @@ func (t *Tracker) tryGroup(grp []uint32) {
 	default:
 		t.id[ns], t.id[bc] = bID, t.id[ns]
 	}
+}
+
+// subLevel is the level of sub, the subgraph on nodes (local ids in node
+// order), with the whole graph's degrees, penalty masses and 2m in the
+// null model, as the group and resplit passes optimise it.
+func (t *Tracker) subLevel(sub *Graph, nodes []uint32) level {
+	l := sub.view(ObjectiveModularity) // k and a are replaced just below
+	l.k = make([]float64, len(nodes))
+	l.a = l.k
+	if t.o.Objective == ObjectiveCPM {
+		l.a = make([]float64, len(nodes))
+	}
+	for li, u := range nodes {
+		l.k[li] = t.g.k[u]
+		l.a[li] = t.mass(u)
+	}
+	l.m2 = t.g.m2
+	return l
 }
 
 // moveNode moves node u to slot to, keeping every total and recording the

@@ -80,17 +80,7 @@ func (t *Tracker) resplit(c uint32) {
 	}
 	sub := NewGraph(len(nodes), edges)
 	s := newSolver(&t.o, t.o.Seed^uint64(t.batches)^uint64(c))
-	l := sub.view(t.o.Objective)
-	l.k = make([]float64, len(nodes))
-	l.a = l.k
-	if t.o.Objective == ObjectiveCPM {
-		l.a = make([]float64, len(nodes))
-	}
-	for li, u := range nodes {
-		l.k[li] = g.k[u]
-		l.a[li] = t.mass(u)
-	}
-	l.m2 = g.m2
+	l := t.subLevel(sub, nodes)
 	comm, k := s.run(l, nil, 16)
 	if k < 2 {
 		return
