@@ -1,10 +1,10 @@
 package main
 
 import (
-	"bufio"
 	"cmp"
 	"context"
 	"encoding/json"
+	"errors"
 	"flag"
 	"fmt"
 	"io"
@@ -593,14 +593,8 @@ func readNodeWeights(path string, d *ingest.Dict, g *tracker.Graph) error {
 		return fmt.Errorf("--node-weights: %w", err)
 	}
 	defer f.Close()
-	sc := bufio.NewScanner(f)
-	sc.Buffer(make([]byte, 0, 64<<10), 1<<20)
 	seen := map[uint32]int{}
-	for line := 1; sc.Scan(); line++ {
-		s := strings.TrimSpace(sc.Text())
-		if s == "" || s[0] == '#' {
-			continue
-		}
+	err = eachListLine(f, func(line int, s string) error {
 		cut := strings.LastIndexAny(s, " \t")
 		if cut < 0 {
 			return usagef("%s:%d: want node<TAB>weight, got %q", path, line, s)
@@ -619,11 +613,13 @@ func readNodeWeights(path string, d *ingest.Dict, g *tracker.Graph) error {
 		}
 		seen[id] = line
 		g.SetNodeWeight(id, w)
-	}
-	if err := sc.Err(); err != nil {
+		return nil
+	})
+	var ue usageError
+	if err != nil && !errors.As(err, &ue) {
 		return fmt.Errorf("--node-weights: read %s: %w", path, err)
 	}
-	return nil
+	return err
 }
 
 // qualityName says what the quality of an objective is, in words.

@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"encoding/binary"
 	"errors"
 	"fmt"
@@ -99,25 +98,21 @@ func readHubList(path string) ([]hubName, error) {
 }
 
 func parseHubList(r io.Reader, path string) ([]hubName, error) {
-	sc := bufio.NewScanner(r)
-	sc.Buffer(make([]byte, 0, 64<<10), 1<<20)
 	var out []hubName
 	seen := map[string]int{}
-	for line := 1; sc.Scan(); line++ {
-		s := strings.TrimSpace(sc.Text())
-		if s == "" || s[0] == '#' {
-			continue
-		}
+	err := eachListLine(r, func(line int, s string) error {
 		if first, dup := seen[s]; dup {
-			return nil, usagef("%s:%d: hub %q already listed at line %d", path, line, s, first)
+			return usagef("%s:%d: hub %q already listed at line %d", path, line, s, first)
 		}
 		seen[s] = line
 		out = append(out, hubName{s, line})
-	}
-	if err := sc.Err(); err != nil {
+		return nil
+	})
+	var ue usageError
+	if err != nil && !errors.As(err, &ue) {
 		return nil, fmt.Errorf("--hubs: read %s: %w", path, err)
 	}
-	return out, nil
+	return out, err
 }
 
 // hubReport is what the hub policy kept out of the optimisation, in the

@@ -7,6 +7,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"strings"
 	"sync"
 	"time"
 
@@ -145,4 +146,22 @@ func writeFileAtomic(path string, write func(w io.Writer) error) error {
 		return fmt.Errorf("rename into place: %w", err)
 	}
 	return nil
+}
+
+// eachListLine calls fn for every line of r that is neither blank nor a
+// # comment, trimmed, with its 1-based line number (the --hubs and
+// --node-weights files); it stops at fn's first error.
+func eachListLine(r io.Reader, fn func(line int, s string) error) error {
+	sc := bufio.NewScanner(r)
+	sc.Buffer(make([]byte, 0, 64<<10), 1<<20)
+	for line := 1; sc.Scan(); line++ {
+		s := strings.TrimSpace(sc.Text())
+		if s == "" || s[0] == '#' {
+			continue
+		}
+		if err := fn(line, s); err != nil {
+			return err
+		}
+	}
+	return sc.Err()
 }
