@@ -100,6 +100,12 @@
 //     raises Q (the community-level step of Louvain, restricted to what the
 //     batch touched; see mergePass).
 //
+// [Tracker.Settle], which the timeline calls before each snapshot, runs the
+// resplit of step 6 on every community whose internal weight grew by a
+// tenth since the last Settle: a group that formed a few edges a batch
+// next to a community is otherwise glued to it, and what a snapshot holds
+// would depend on how the events were batched.
+//
 // The work is proportional to the batch and the frontier, not to the graph.
 // The frontier rule ignores the small shift of every gain caused by the
 // change of m; Delta-screening (Zarayeneh et al. 2021) would examine more

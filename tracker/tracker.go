@@ -89,6 +89,7 @@ type Tracker struct {
 	hot      []uint32    // slots touched by the batch
 	lost     []float64   // internal weight each slot lost to the batch's changes
 	checked  []float64   // each slot's internal weight when the resplit pass last looked at it
+	settled  []float64   // each slot's internal weight at the last Settle
 	hotMark  []bool
 	stamp    []uint32 // search labels by node
 	local    []uint32 // node -> index in the frontier subgraph
@@ -226,7 +227,7 @@ func (t *Tracker) loadDense(comm []uint32, ids []uint64) {
 	t.hotMark = make([]bool, c)
 	t.lost = make([]float64, c)
 	t.s.grow(max(n, c) + 1)
-	defer func() { t.checked = slices.Clone(t.in) }()
+	defer func() { t.checked, t.settled = slices.Clone(t.in), slices.Clone(t.in) }()
 	for len(t.mark) < n {
 		t.mark = append(t.mark, false)
 		t.stamp = append(t.stamp, 0)
@@ -307,8 +308,9 @@ func (t *Tracker) newSlot() uint32 {
 		t.hotMark = append(t.hotMark, false)
 		t.lost = append(t.lost, 0)
 		t.checked = append(t.checked, 0)
+		t.settled = append(t.settled, 0)
 	}
-	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s], t.settled[s] = noSlot, 0, 0, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	return s
@@ -328,6 +330,7 @@ func (t *Tracker) reserveSlots(k int) {
 		t.hotMark = append(t.hotMark, false)
 		t.lost = append(t.lost, 0)
 		t.checked = append(t.checked, 0)
+		t.settled = append(t.settled, 0)
 		t.free = append(t.free, s)
 	}
 	t.s.grow(len(t.head) + 1)
@@ -342,7 +345,7 @@ func (t *Tracker) takeSlot() uint32 {
 	}
 	s := t.free[n-1]
 	t.free = t.free[:n-1]
-	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s] = noSlot, 0, 0, 0, 0, 0, 0
+	t.head[s], t.tot[s], t.in[s], t.mtot[s], t.size[s], t.lost[s], t.checked[s], t.settled[s] = noSlot, 0, 0, 0, 0, 0, 0, 0
 	t.id[s] = t.nextID
 	t.nextID++
 	t.heat(s)

@@ -447,6 +447,21 @@ func (t *Timeline) apply(chs []tracker.Change) error {
 	return nil
 }
 
+// settle runs tracker.Settle before a snapshot, so that the snapshot does
+// not depend on how the events were batched (no batch is running).
+func (t *Timeline) settle() error {
+	t.mu.Lock()
+	defer t.mu.Unlock()
+	t.mu.tr.Settle()
+	if t.cfg.Check {
+		if err := t.mu.tr.Check(); err != nil {
+			return fmt.Errorf("timeline: tracker check after settling: %w", err)
+		}
+	}
+	t.nextID.Store(t.mu.tr.NextID())
+	return nil
+}
+
 // take applies the pending batch, waits for the tracker and takes the
 // snapshot at time ts.
 func (t *Timeline) take(ts int64) error {
@@ -458,6 +473,9 @@ func (t *Timeline) take(ts int64) error {
 		return err
 	}
 	if err := t.wait(); err != nil {
+		return err
+	}
+	if err := t.settle(); err != nil {
 		return err
 	}
 	id := t.st.LastSnapshot + 1
